@@ -1,0 +1,7 @@
+"""Allow ``python -m tauscan``."""
+
+import sys
+
+from tauscan.cli import main
+
+sys.exit(main())

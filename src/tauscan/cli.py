@@ -1,0 +1,94 @@
+"""The ``tauscan`` command line.
+
+Sub-commands import their stage and reporter only when asked for, so that
+``tauscan --help`` stays fast.  User errors (:class:`TauscanError`) become one
+message on stderr and exit code 2, here and nowhere else.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from collections.abc import Sequence
+
+from tauscan import __version__
+from tauscan.errors import SettingsError, TauscanError
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_ERROR = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that raises our error (exit 2, one line) instead of printing usage and exiting."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        raise SettingsError(f"{self.prog}: {message} (see --help)")
+
+
+def _add_common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("netlist", help="SPICE-format netlist file")
+    p.add_argument("--param", action="append", default=[], metavar="NAME=VALUE", help="override a .param (repeatable)")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="tauscan",
+        description="Find the capacitors that limit a circuit's bandwidth: Miller multiplication, "
+        "open-circuit time constants and exact poles from a SPICE netlist.",
+    )
+    parser.add_argument("--version", action="version", version=f"tauscan {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = sub.add_parser("expand", help="print the flat circuit the reader produces")
+    _add_common(p)
+    p.add_argument("--format", choices=["table", "json"], default="table")
+    p.add_argument("-o", "--output", metavar="FILE", help="write to FILE instead of standard output")
+
+    from tauscan import commands
+
+    commands.add_subcommands(sub, _add_common)
+    return parser
+
+
+def parse_params(items: Sequence[str]) -> dict[str, float]:
+    """``--param NAME=VALUE`` items -> {name: value}; values take SPICE suffixes."""
+    from tauscan.units import parse_number
+
+    out: dict[str, float] = {}
+    for item in items:
+        name, sep, text = item.partition("=")
+        value = parse_number(text.strip()) if sep else None
+        if not sep or not name.strip() or value is None:
+            raise SettingsError(f"--param expects NAME=VALUE with a number, not {item!r}")
+        out[name.strip().lower()] = value
+    return out
+
+
+def run(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_ERROR
+    return args.handler(args)
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the console script; returns the exit code."""
+    try:
+        return run(argv)
+    except TauscanError as exc:
+        print(exc.render(), file=sys.stderr)
+        return EXIT_ERROR
+    except KeyboardInterrupt:
+        print("tauscan: interrupted", file=sys.stderr)
+        return EXIT_ERROR
+    except BrokenPipeError:
+        return EXIT_OK
+    except Exception as exc:  # a bug: say so in one line, keep the traceback for developers
+        if os.environ.get("TAUSCAN_DEBUG"):
+            raise
+        print(f"tauscan: internal error: {type(exc).__name__}: {exc} (set TAUSCAN_DEBUG=1 for the traceback, and please report it)", file=sys.stderr)
+        return EXIT_ERROR

@@ -1,0 +1,94 @@
+"""The one family of errors a user can cause.
+
+Every error carries where it happened (file, line, column), the offending text
+and one clear sentence.  The CLI turns it into a message on stderr and exit
+code 2 in exactly one place (:func:`tauscan.cli.main`).
+"""
+
+from __future__ import annotations
+
+
+class TauscanError(Exception):
+    """An error in the user's input or settings, with its location.
+
+    Parameters
+    ----------
+    message:
+        One sentence saying what is wrong.
+    file, line, col:
+        Where (1-based line and column); any may be unknown.
+    text:
+        The offending source line, shown with a caret under ``col``.
+    """
+
+    def __init__(
+        self,
+        message: str,
+        file: str | None = None,
+        line: int | None = None,
+        col: int | None = None,
+        text: str | None = None,
+    ) -> None:
+        super().__init__(message)
+        self.message = message
+        self.file = file
+        self.line = line
+        self.col = col
+        self.text = text
+
+    def where(self) -> str:
+        parts = [self.file or "<input>"]
+        if self.line is not None:
+            parts.append(str(self.line))
+            if self.col is not None:
+                parts.append(str(self.col))
+        return ":".join(parts)
+
+    def headline(self) -> str:
+        """The one-line form: ``file:line:col: error: message: 'text'``."""
+        head = f"{self.where()}: error: {self.message}"
+        if self.text is not None:
+            shown = self.text.strip()
+            if len(shown) > 120:
+                shown = shown[:117] + "..."
+            head += f": {shown!r}"
+        return head
+
+    def render(self) -> str:
+        """The headline, then the source line with a caret under the column."""
+        out = [self.headline()]
+        if self.text is not None and self.col is not None and len(self.text) <= 200:
+            out.append("    " + self.text.rstrip("\n").expandtabs(1))
+            out.append("    " + " " * max(self.col - 1, 0) + "^")
+        return "\n".join(out)
+
+    def __str__(self) -> str:
+        return self.headline()
+
+
+class NetlistSyntaxError(TauscanError):
+    """A card that the grammar or the element rules do not accept."""
+
+
+class ExpressionError(TauscanError):
+    """A parameter expression that cannot be parsed or evaluated."""
+
+
+class HierarchyError(TauscanError):
+    """Subcircuit definitions and instances that do not fit together."""
+
+
+class IncludeError(TauscanError):
+    """A missing, unreadable or cyclic ``.include`` / ``.lib``."""
+
+
+class CircuitError(TauscanError):
+    """A circuit that reads but cannot be solved or analysed as given."""
+
+
+class ConvergenceError(CircuitError):
+    """The DC operating point would not settle."""
+
+
+class SettingsError(TauscanError):
+    """A bad command-line option, configuration file or operating-point file."""

@@ -1,0 +1,23 @@
+"""Netlist reader: SPICE-format text -> a flat, fully evaluated circuit.
+
+Stages: :mod:`lines` (pre-pass), :mod:`fields` (the Lark card grammar),
+:mod:`loader` (includes, definitions), :mod:`flatten` (hierarchy and
+parameters), with :mod:`expr` evaluating parameter expressions.
+"""
+
+from __future__ import annotations
+
+from tauscan.circuit import Circuit
+from tauscan.reader.flatten import flatten
+from tauscan.reader.loader import load
+
+
+def read_netlist(path: str, params: dict[str, float] | None = None) -> Circuit:
+    """Read ``path`` (and its includes) into a flat circuit.
+
+    ``params`` overrides global ``.param`` values (as ``--param`` does).
+    """
+    return flatten(load(path), params)
+
+
+__all__ = ["read_netlist"]

@@ -1,0 +1,236 @@
+"""Element cards -> flat :class:`~tauscan.circuit.Element` records, one rule per letter.
+
+Each rule receives the positional fields (after the element name), the
+``key=value`` fields and a frame that maps nodes, evaluates values and finds
+models in the instance being expanded.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Protocol
+
+from tauscan.circuit import Element, SourceSpec, Waveform
+from tauscan.errors import NetlistSyntaxError
+from tauscan.reader.fields import Field
+from tauscan.reader.lines import Card
+
+WAVEFORMS = frozenset(["pulse", "sin", "pwl", "exp", "sffm", "am"])
+_SOURCE_WORDS = WAVEFORMS | {"dc", "ac"}
+
+
+def _valueish(f: Field) -> bool:
+    """A field that can stand for a value in a source card (not one of its keywords)."""
+    return f[0] in ("b", "q") or (f[0] == "w" and f[1].lower() not in _SOURCE_WORDS)
+
+
+class Frame(Protocol):
+    prefix: str
+
+    def node(self, raw: str) -> str: ...
+    def value(self, f: Field, card: Card) -> float: ...
+    def model(self, raw: str) -> str | None: ...
+
+
+def _need(pos: list[Field], count: int, card: Card, what: str) -> None:
+    if len(pos) < count:
+        offset = pos[-1][2] + len(str(pos[-1][1])) if pos else len(card.text.split()[0])
+        raise card.error(NetlistSyntaxError, f"missing {what}", offset)
+    for f in pos[:count]:
+        if f[0] != "w":
+            raise card.error(NetlistSyntaxError, f"expected a node name here ({what})", f[2])
+
+
+def _nodes(pos: list[Field], count: int, frame: Frame) -> tuple[str, ...]:
+    return tuple(frame.node(f[1]) for f in pos[:count])
+
+
+def _params(params: list[Field], card: Card, frame: Frame) -> dict[str, float]:
+    return {f[1][0]: frame.value(f[1][1], card) for f in params}
+
+
+def _extra(pos: list[Field], start: int, card: Card) -> None:
+    if len(pos) > start:
+        f = pos[start]
+        raise card.error(NetlistSyntaxError, f"unexpected field {_show(f)!r}", f[2])
+
+
+def _show(f: Field) -> str:
+    if f[0] == "g":
+        return "(...)"
+    if f[0] == "p":
+        return f"{f[1][0]}=..."
+    return str(f[1])
+
+
+def passive(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """R, C, L: two nodes and a value (positional, or ``r=``/``c=``/``l=``/``value=``)."""
+    unit = {"r": "resistance", "c": "capacitance", "l": "inductance"}[letter]
+    _need(pos, 2, card, "the two nodes")
+    values = _params(params, card, frame)
+    model = None
+    if len(pos) >= 3 and pos[2][0] in ("w", "b", "q"):
+        value = frame.value(pos[2], card)
+        _extra(pos, 3, card)
+    else:
+        for key in (letter, "value", {"r": "res", "c": "cap", "l": "ind"}[letter]):
+            if key in values:
+                value = values.pop(key)
+                break
+        else:
+            raise card.error(NetlistSyntaxError, f"missing {unit} value", len(card.text.rstrip()))
+        _extra(pos, 2, card)
+    if letter == "r" and value == 0:
+        raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", pos[2][2] if len(pos) > 2 else 0)
+    if letter == "c" and value < 0:
+        raise card.error(NetlistSyntaxError, "negative capacitance", pos[2][2] if len(pos) > 2 else 0)
+    return Element(name, letter, _nodes(pos, 2, frame), value, model, values, card.file, card.line, comment=card.comment)
+
+
+def _waveform(kind: str, group: Field, card: Card, frame: Frame) -> Waveform:
+    args = tuple(frame.value(f, card) for f in group[1] if f[0] != "p")
+    return Waveform(kind, args)
+
+
+def source(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """V, I: two nodes, then ``[DC] value``, ``AC mag [phase]`` and a transient function."""
+    _need(pos, 2, card, "the two nodes")
+    spec = SourceSpec()
+    i = 2
+    while i < len(pos):
+        f = pos[i]
+        word = f[1].lower() if f[0] == "w" else ""
+        if word == "dc" and i + 1 < len(pos) and _valueish(pos[i + 1]):
+            spec.dc = frame.value(pos[i + 1], card)
+            spec.dc_given = True
+            i += 2
+        elif word == "ac":
+            spec.ac_mag = 1.0
+            i += 1
+            if i < len(pos) and _valueish(pos[i]):
+                spec.ac_mag = frame.value(pos[i], card)
+                i += 1
+                if i < len(pos) and _valueish(pos[i]):
+                    spec.ac_phase = frame.value(pos[i], card)
+                    i += 1
+        elif word in WAVEFORMS and i + 1 < len(pos) and pos[i + 1][0] == "g":
+            spec.waveform = _waveform(word, pos[i + 1], card, frame)
+            i += 2
+        elif word in WAVEFORMS:
+            raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments in parentheses", f[2])
+        elif _valueish(f) and not spec.dc_given:
+            spec.dc = frame.value(f, card)
+            spec.dc_given = True
+            i += 1
+        else:
+            raise card.error(NetlistSyntaxError, f"unexpected field {_show(f)!r} in a source", f[2])
+    values = _params(params, card, frame)
+    if "dc" in values:
+        spec.dc, spec.dc_given = values.pop("dc"), True
+    if not spec.dc_given and spec.waveform is not None:
+        spec.dc = spec.waveform.value_at_zero()
+    return Element(name, letter, _nodes(pos, 2, frame), spec.dc, None, values, card.file, card.line, spec, comment=card.comment)
+
+
+def voltage_controlled(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """E, G: output nodes, controlling nodes, gain."""
+    _behavioural(pos, params, card)
+    _need(pos, 4, card, "the output and controlling nodes")
+    values = _params(params, card, frame)
+    if len(pos) >= 5 and pos[4][0] in ("w", "b", "q"):
+        gain = frame.value(pos[4], card)
+        _extra(pos, 5, card)
+    elif "gain" in values or "gm" in values:
+        gain = values.pop("gain", None) or values.pop("gm")
+        _extra(pos, 4, card)
+    else:
+        raise card.error(NetlistSyntaxError, "missing gain", len(card.text.rstrip()))
+    return Element(name, letter, _nodes(pos, 4, frame), gain, None, values, card.file, card.line, comment=card.comment)
+
+
+def current_controlled(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """F, H: output nodes, controlling voltage source, gain."""
+    _behavioural(pos, params, card)
+    _need(pos, 3, card, "the output nodes and the controlling source")
+    if len(pos) < 4 or pos[3][0] not in ("w", "b", "q"):
+        raise card.error(NetlistSyntaxError, "missing gain", len(card.text.rstrip()))
+    gain = frame.value(pos[3], card)
+    _extra(pos, 4, card)
+    control = (frame.prefix + pos[2][1].lower(),)
+    return Element(name, letter, _nodes(pos, 2, frame), gain, None, _params(params, card, frame), card.file, card.line, control=control, comment=card.comment)
+
+
+def _behavioural(pos: list[Field], params: list[Field], card: Card) -> None:
+    for f in pos:
+        if f[0] == "w" and f[1].lower() in ("poly", "table", "laplace", "cur", "vol"):
+            raise card.error(NetlistSyntaxError, f"{f[1].upper()} controlled sources are not supported; use a linear gain", f[2])
+    for f in params:
+        if f[1][0] in ("value", "table", "laplace"):
+            raise card.error(NetlistSyntaxError, "behavioural sources are not supported; use a linear gain", f[2])
+
+
+def coupling(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """K: two inductors and the coupling factor (kept; it does not enter the DC point)."""
+    _need(pos, 2, card, "the two inductors")
+    if len(pos) < 3 or pos[2][0] not in ("w", "b", "q"):
+        raise card.error(NetlistSyntaxError, "missing coupling factor", len(card.text.rstrip()))
+    k = frame.value(pos[2], card)
+    control = tuple(frame.prefix + f[1].lower() for f in pos[:2])
+    return Element(name, "k", (), k, None, _params(params, card, frame), card.file, card.line, control=control, comment=card.comment)
+
+
+def _device(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame, count: int, what: str) -> Element:
+    _need(pos, count + 1, card, f"the {what} nodes and the model")
+    model = frame.model(pos[count][1])
+    if model is None:
+        raise card.error(NetlistSyntaxError, f"model {pos[count][1]!r} is not defined", pos[count][2])
+    values = _params(params, card, frame)
+    if len(pos) > count + 1:
+        if pos[count + 1][0] == "w" and pos[count + 1][1].lower() == "off":
+            values["off"] = 1.0
+            _extra(pos, count + 2, card)
+        elif pos[count + 1][0] in ("w", "b", "q"):
+            values["area"] = frame.value(pos[count + 1], card)
+            _extra(pos, count + 2, card)
+        else:
+            _extra(pos, count + 1, card)
+    return Element(name, letter, _nodes(pos, count, frame), None, model, values, card.file, card.line, comment=card.comment)
+
+
+def diode(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """D: anode, cathode, model, optional area."""
+    return _device(letter, name, pos, params, card, frame, 2, "anode and cathode")
+
+
+def mosfet(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """M: drain, gate, source, bulk, model, instance parameters."""
+    return _device(letter, name, pos, params, card, frame, 4, "drain, gate, source and bulk")
+
+
+def bipolar(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
+    """Q: collector, base, emitter, optional substrate, model, optional area.
+
+    The fourth word is the model when a model of that name exists, else the
+    substrate node (the usual SPICE reading).
+    """
+    _need(pos, 4, card, "collector, base and emitter nodes and the model")
+    if pos[3][0] == "w" and frame.model(pos[3][1]) is not None:
+        return _device(letter, name, pos, params, card, frame, 3, "collector, base and emitter")
+    return _device(letter, name, pos, params, card, frame, 4, "collector, base, emitter and substrate")
+
+
+RULES: dict[str, Callable[..., Element]] = {
+    "r": passive,
+    "c": passive,
+    "l": passive,
+    "v": source,
+    "i": source,
+    "e": voltage_controlled,
+    "g": voltage_controlled,
+    "f": current_controlled,
+    "h": current_controlled,
+    "k": coupling,
+    "d": diode,
+    "q": bipolar,
+    "m": mosfet,
+}

@@ -1,0 +1,240 @@
+"""Definitions -> a flat :class:`~tauscan.circuit.Circuit`, every value evaluated.
+
+Instances are expanded with an explicit stack (no Python recursion), so the
+depth of a hierarchy is limited only by :data:`MAX_DEPTH`.  Recursive
+definitions are found beforehand on the static graph of which subcircuit
+places which.
+"""
+
+from __future__ import annotations
+
+from tauscan.circuit import GROUND, Circuit, Element, Model
+from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
+from tauscan.reader.elements import RULES
+from tauscan.reader.fields import Field
+from tauscan.reader.lines import Card
+from tauscan.reader.loader import Definition, Netlist
+from tauscan.reader.scope import ParamScope, field_value
+
+#: Deepest chain of nested subcircuit instances.
+MAX_DEPTH = 1000
+
+GROUND_NAMES = frozenset(["0", "gnd", "gnd!"])
+
+
+class Frame:
+    """One instance being expanded: its definition, name prefix, pins and parameters."""
+
+    __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models")
+
+    def __init__(self, definition: Definition, prefix: str, pins: dict[str, str], scope: ParamScope, parent: "Frame | None", flattener: "Flattener", depth: int) -> None:
+        self.definition = definition
+        self.prefix = prefix
+        self.pins = pins
+        self.scope = scope
+        self.parent = parent
+        self.flattener = flattener
+        self.depth = depth
+        self._models: dict[str, str | None] = {}
+
+    def node(self, raw: str) -> str:
+        name = raw.lower()
+        if name in GROUND_NAMES:
+            return GROUND
+        mapped = self.pins.get(name)
+        if mapped is not None:
+            return mapped
+        if name in self.flattener.global_nodes:
+            return name
+        return self.prefix + name
+
+    def value(self, f: Field, card: Card) -> float:
+        return field_value(f, card, self.scope)
+
+    def model(self, raw: str) -> str | None:
+        key = raw.lower()
+        if key not in self._models:
+            self._models[key] = self.flattener.model_for(self, key)
+        return self._models[key]
+
+
+class Flattener:
+    def __init__(self, netlist: Netlist, overrides: dict[str, float] | None = None) -> None:
+        self.netlist = netlist
+        self.global_nodes = {n for n in netlist.global_nodes if n not in GROUND_NAMES}
+        top = netlist.top
+        self.top_scope = ParamScope(top.params, None, overrides or {})
+        self.circuit = Circuit(netlist.title, netlist.file)
+        self.circuit.global_nodes = set(self.global_nodes)
+        self.circuit.warnings.extend(netlist.warnings)
+        self.seen: dict[str, Card] = {}
+
+    # -- models ----------------------------------------------------------------
+    def model_for(self, frame: Frame, name: str) -> str | None:
+        """Flat name of model ``name`` as seen from ``frame`` (lexical scope), built on first use."""
+        owner: Definition | None = frame.definition
+        while owner is not None and name not in owner.models:
+            owner = owner.parent
+        if owner is None:
+            return None
+        # the frame that instantiated the owning definition gives the name prefix and parameters
+        host: Frame | None = frame
+        while host is not None and host.definition is not owner:
+            host = host.parent
+        if host is None:
+            host = frame
+        flat = host.prefix + name
+        if flat not in self.circuit.models:
+            fields, card = owner.models[name]
+            self.circuit.models[flat] = self._model(flat, fields, card, host)
+        return flat
+
+    def _model(self, flat: str, fields: list[Field], card: Card, frame: Frame) -> Model:
+        mtype = fields[0][1].lower()
+        params: dict[str, float] = {}
+        items: list[Field] = []
+        for f in fields[1:]:
+            items.extend(f[1] if f[0] == "g" else [f])
+        for f in items:
+            if f[0] == "p":
+                params[f[1][0]] = frame.value(f[1][1], card)
+            elif f[0] == "g":
+                raise card.error(NetlistSyntaxError, "nested parentheses in '.model'", f[2])
+        return Model(flat, mtype, params, card.file, card.line)
+
+    # -- expansion ---------------------------------------------------------------
+    def run(self) -> Circuit:
+        top = self.netlist.top
+        check_recursion(top)
+        root = Frame(top, "", {}, self.top_scope, None, self, 0)
+        self._settings(root)
+        # models defined at the top are kept even when no element uses them
+        for name in top.models:
+            root.model(name)
+        stack: list[tuple[Frame, int]] = [(root, 0)]
+        while stack:
+            frame, index = stack.pop()
+            elements = frame.definition.elements
+            while index < len(elements):
+                name, fields, card = elements[index]
+                index += 1
+                if name[0] == "x":
+                    child = self._instance(frame, name, fields, card)
+                    stack.append((frame, index))
+                    stack.append((child, 0))
+                    break
+                self._add(self._element(frame, name, fields, card), card)
+        return self.circuit
+
+    def _settings(self, root: Frame) -> None:
+        net = self.netlist
+        if net.temp is not None:
+            f, card = net.temp
+            self.circuit.temp_c = root.value(f, card)
+        for key, item in net.options.items():
+            if isinstance(item, str):
+                self.circuit.options[key] = item
+            else:
+                f, card = item
+                try:
+                    self.circuit.options[key] = root.value(f, card)
+                except TauscanError:
+                    self.circuit.options[key] = str(f[1])
+
+    def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
+        pos = [f for f in fields[1:] if f[0] != "p"]
+        params = [f for f in fields[1:] if f[0] == "p"]
+        element = RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
+        return element
+
+    def _add(self, element: Element, card: Card) -> None:
+        first = self.seen.get(element.name)
+        if first is not None:
+            raise card.error(
+                NetlistSyntaxError,
+                f"element {element.name!r} is defined twice (first at {first.file}:{first.line})",
+                0,
+            )
+        self.seen[element.name] = card
+        if element.kind == "c" and element.value == 0:
+            self.circuit.warnings.append(f"{card.file}:{card.line}: capacitor {element.name} has zero value")
+        self.circuit.elements.append(element)
+
+    def _instance(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Frame:
+        pos = [f for f in fields[1:] if f[0] != "p"]
+        params = [f for f in fields[1:] if f[0] == "p"]
+        if not pos or pos[-1][0] != "w":
+            raise card.error(HierarchyError, "an instance needs its nodes and a subcircuit name", 0)
+        sub_field = pos[-1]
+        definition = frame.definition.find_subckt(sub_field[1].lower())
+        if definition is None:
+            raise card.error(HierarchyError, f"unknown subcircuit {sub_field[1]!r}", sub_field[2])
+        nodes = pos[:-1]
+        for f in nodes:
+            if f[0] != "w":
+                raise card.error(NetlistSyntaxError, "expected a node name here", f[2])
+        if len(nodes) != len(definition.pins):
+            raise card.error(
+                HierarchyError,
+                f"subcircuit {definition.name!r} has {len(definition.pins)} pins, the instance gives {len(nodes)}",
+                sub_field[2],
+            )
+        if frame.depth + 1 > MAX_DEPTH:
+            raise card.error(HierarchyError, f"subcircuit instances nested deeper than {MAX_DEPTH}", 0)
+        values: dict[str, float] = {}
+        for f in params:
+            key = f[1][0]
+            if key not in definition.defaults and key not in definition.params:
+                raise card.error(HierarchyError, f"subcircuit {definition.name!r} has no parameter {key!r}", f[2])
+            values[key] = frame.value(f[1][1], card)
+        raw = dict(definition.params)
+        raw.update(definition.defaults)
+        scope = ParamScope(raw, frame.scope, values)
+        pins = {pin: frame.node(f[1]) for pin, f in zip(definition.pins, nodes)}
+        prefix = frame.prefix + name + "."
+        return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1)
+
+
+def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
+    """The definitions that ``definition``'s instance lines place (unknown names skipped)."""
+    out = []
+    for name, fields, card in definition.elements:
+        if name[0] != "x":
+            continue
+        pos = [f for f in fields[1:] if f[0] not in ("p",)]
+        if pos and pos[-1][0] == "w":
+            target = definition.find_subckt(pos[-1][1].lower())
+            if target is not None:
+                out.append((target, card, pos[-1][2]))
+    return out
+
+
+def check_recursion(top: Definition) -> None:
+    """Raise when a subcircuit places itself, directly or through others (reachable from the top)."""
+    state: dict[int, int] = {}  # id -> 1 on the path, 2 done
+    path: list[Definition] = [top]
+    stack = [(top, iter(_placed(top)))]
+    state[id(top)] = 1
+    while stack:
+        definition, children = stack[-1]
+        for child, card, offset in children:
+            mark = state.get(id(child))
+            if mark == 1:
+                names = [d.name for d in path[path.index(child):]] + [child.name]
+                raise card.error(
+                    HierarchyError, "subcircuit instantiates itself: " + " -> ".join(names), offset
+                )
+            if mark is None:
+                state[id(child)] = 1
+                path.append(child)
+                stack.append((child, iter(_placed(child))))
+                break
+        else:
+            state[id(definition)] = 2
+            path.pop()
+            stack.pop()
+
+
+def flatten(netlist: Netlist, overrides: dict[str, float] | None = None) -> Circuit:
+    """Expand the hierarchy and evaluate every value."""
+    return Flattener(netlist, overrides).run()

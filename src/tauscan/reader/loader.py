@@ -1,0 +1,271 @@
+"""Files -> a tree of definitions (the top level and its ``.subckt`` blocks).
+
+This stage follows ``.include`` and ``.lib``, sorts every card into the
+definition it belongs to and keeps the control cards' settings.  Nothing is
+evaluated yet: parameters may be defined after their use, so values wait for
+:mod:`tauscan.reader.flatten`.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+
+from tauscan.circuit import ELEMENT_KINDS
+from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
+from tauscan.reader.fields import Field, card_fields
+from tauscan.reader.lines import Card, logical_lines, read_file
+
+#: Deepest chain of nested ``.include`` files.
+MAX_INCLUDE_DEPTH = 64
+
+#: Control cards that are recognised and skipped (analysis and output requests, etc.).
+SKIPPED_CARDS = frozenset(
+    "op ac dc tran noise pz tf sens disto four print plot probe meas measure save "
+    "ic nodeset width title alter data enddata csparam func net save step".split()
+)
+
+
+@dataclass
+class Definition:
+    """The top level or one ``.subckt``: its pins, parameters, models, elements."""
+
+    name: str
+    pins: list[str]
+    card: Card | None
+    parent: "Definition | None"
+    defaults: dict[str, tuple[Field, Card]] = field(default_factory=dict)
+    params: dict[str, tuple[Field, Card]] = field(default_factory=dict)
+    models: dict[str, tuple[list[Field], Card]] = field(default_factory=dict)
+    subckts: dict[str, "Definition"] = field(default_factory=dict)
+    elements: list[tuple[str, list[Field], Card]] = field(default_factory=list)
+
+    def find_subckt(self, name: str) -> "Definition | None":
+        scope: Definition | None = self
+        while scope is not None:
+            found = scope.subckts.get(name)
+            if found is not None:
+                return found
+            scope = scope.parent
+        return None
+
+
+@dataclass
+class Netlist:
+    """Everything read from the files, before evaluation."""
+
+    title: str
+    file: str
+    top: Definition
+    options: dict[str, tuple[Field, Card] | str] = field(default_factory=dict)
+    temp: tuple[Field, Card] | None = None
+    global_nodes: set[str] = field(default_factory=set)
+    warnings: list[str] = field(default_factory=list)
+
+
+def _word(f: Field) -> str | None:
+    return f[1] if f[0] == "w" else None
+
+
+def _filename(f: Field) -> str | None:
+    if f[0] in ("s", "q", "w"):
+        return f[1]
+    return None
+
+
+class Loader:
+    """Reads a netlist and the files it includes into a :class:`Netlist`."""
+
+    def __init__(self, path: str) -> None:
+        self.path = path
+        self.stack: list[Definition] = []
+        self.include_chain: list[str] = []
+        self.netlist: Netlist | None = None
+
+    def load(self) -> Netlist:
+        text = read_file(self.path)
+        title, cards = logical_lines(text, self.path, has_title=True)
+        if not title and not cards:
+            raise NetlistSyntaxError("the netlist is empty", self.path, 1, 1, "")
+        top = Definition("", [], None, None)
+        self.netlist = Netlist(title, self.path, top)
+        self.stack = [top]
+        self.include_chain = [os.path.realpath(self.path)]
+        self._cards(cards)
+        if len(self.stack) > 1:
+            open_def = self.stack[-1]
+            assert open_def.card is not None
+            raise open_def.card.error(HierarchyError, f"'.subckt {open_def.name}' is never closed by '.ends'", 0)
+        if not top.elements and not top.subckts and not top.models:
+            raise NetlistSyntaxError("the netlist has no elements", self.path, 1, 1, title)
+        return self.netlist
+
+    # -- card dispatch ---------------------------------------------------------
+    def _cards(self, cards: list[Card]) -> None:
+        skip_section: Card | None = None
+        for card in cards:
+            text = card.text.lstrip()
+            if skip_section is not None:
+                if text[:5].lower() == ".endl":
+                    skip_section = None
+                continue
+            kind, fields = card_fields(card)
+            if kind == "element":
+                self._element(card, fields)
+                continue
+            directive = fields[0][1].lower()
+            if directive == ".lib" and len(fields) == 2 and fields[1][0] == "w":
+                # a section definition inside a file read whole: not selected, skip it
+                skip_section = card
+                continue
+            self._control(card, directive, fields[1:])
+
+    def _element(self, card: Card, fields: list[Field]) -> None:
+        name = fields[0][1].lower()
+        letter = name[0]
+        if letter not in ELEMENT_KINDS:
+            raise card.error(NetlistSyntaxError, f"unknown element letter {letter!r} (element {fields[0][1]!r})", fields[0][2])
+        self.stack[-1].elements.append((name, fields, card))
+
+    def _control(self, card: Card, directive: str, args: list[Field]) -> None:
+        net = self.netlist
+        assert net is not None
+        current = self.stack[-1]
+        name = directive[1:]
+        if name == "subckt":
+            self._subckt(card, args)
+        elif name == "ends":
+            if len(self.stack) == 1:
+                raise card.error(HierarchyError, "'.ends' with no open '.subckt'", 0)
+            closing = self.stack[-1]
+            if args and _word(args[0]) is not None and args[0][1].lower() != closing.name:
+                raise card.error(
+                    HierarchyError, f"'.ends {args[0][1]}' closes '.subckt {closing.name}'", args[0][2]
+                )
+            self.stack.pop()
+        elif name == "model":
+            if len(args) < 2 or _word(args[0]) is None or _word(args[1]) is None:
+                raise card.error(NetlistSyntaxError, "'.model' needs a name and a type", 0)
+            model_name = args[0][1].lower()
+            current.models[model_name] = (args[1:], card)
+        elif name == "param" or name == "params":
+            if not args:
+                raise card.error(NetlistSyntaxError, "'.param' with no assignment", 0)
+            for f in args:
+                if f[0] != "p":
+                    raise card.error(NetlistSyntaxError, "'.param' takes name=value pairs", f[2])
+                key, value = f[1]
+                current.params[key] = (value, card)
+        elif name in ("include", "inc"):
+            if not args or _filename(args[0]) is None:
+                raise card.error(IncludeError, "'.include' needs a file name", 0)
+            self._include(card, args[0], None)
+        elif name == "lib":
+            if len(args) < 2 or _filename(args[0]) is None or _word(args[1]) is None:
+                raise card.error(IncludeError, "'.lib' needs a file name and a section name", 0)
+            self._include(card, args[0], args[1][1].lower())
+        elif name == "endl":
+            pass
+        elif name == "global":
+            for f in args:
+                if f[0] == "w":
+                    net.global_nodes.add(f[1].lower())
+        elif name == "temp":
+            if not args:
+                raise card.error(NetlistSyntaxError, "'.temp' needs a value", 0)
+            net.temp = (args[0], card)
+        elif name in ("option", "options", "opt"):
+            for f in args:
+                if f[0] == "p":
+                    net.options[f[1][0]] = (f[1][1], card)
+                elif f[0] == "w":
+                    net.options[f[1].lower()] = "on"
+        elif name in SKIPPED_CARDS:
+            pass
+        else:
+            net.warnings.append(f"{card.file}:{card.line}: '{directive}' is not understood and was skipped")
+
+    def _subckt(self, card: Card, args: list[Field]) -> None:
+        if not args or _word(args[0]) is None:
+            raise card.error(HierarchyError, "'.subckt' needs a name", 0)
+        name = args[0][1].lower()
+        pins: list[str] = []
+        defaults: dict[str, tuple[Field, Card]] = {}
+        for f in args[1:]:
+            if f[0] == "w":
+                word = f[1].lower()
+                if word in ("params:", "param:"):
+                    continue
+                if defaults:
+                    raise card.error(HierarchyError, f"pin {f[1]!r} after the parameters", f[2])
+                pins.append(word)
+            elif f[0] == "p":
+                defaults[f[1][0]] = (f[1][1], card)
+            else:
+                raise card.error(NetlistSyntaxError, "unexpected field in '.subckt'", f[2])
+        parent = self.stack[-1]
+        definition = Definition(name, pins, card, parent, defaults)
+        if name in parent.subckts:
+            previous = parent.subckts[name].card
+            assert previous is not None
+            raise card.error(
+                HierarchyError, f"subcircuit {name!r} is defined twice (first at {previous.file}:{previous.line})", args[0][2]
+            )
+        parent.subckts[name] = definition
+        self.stack.append(definition)
+
+    def _include(self, card: Card, name_field: Field, section: str | None) -> None:
+        raw = name_field[1]
+        base = os.path.dirname(card.file)
+        path = os.path.normpath(os.path.join(base, os.path.expanduser(raw)))
+        real = os.path.realpath(path)
+        what = "'.lib'" if section else "'.include'"
+        if real in self.include_chain:
+            raise card.error(IncludeError, f"{what} of {path} includes itself (an include cycle)", name_field[2])
+        if len(self.include_chain) >= MAX_INCLUDE_DEPTH:
+            raise card.error(IncludeError, f"includes nested deeper than {MAX_INCLUDE_DEPTH}", name_field[2])
+        if not os.path.isfile(path):
+            raise card.error(IncludeError, f"{what} file not found: {path}", name_field[2])
+        try:
+            text = read_file(path)
+        except IncludeError as exc:
+            raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field[2]) from None
+        _, cards = logical_lines(text, path, has_title=False)
+        if section is not None:
+            cards = self._section(cards, section, card, name_field, path)
+        self.include_chain.append(real)
+        try:
+            self._cards(cards)
+        finally:
+            self.include_chain.pop()
+
+    @staticmethod
+    def _section(cards: list[Card], section: str, card: Card, name_field: Field, path: str) -> list[Card]:
+        chosen: list[Card] = []
+        inside = False
+        found = False
+        sections: list[str] = []
+        for c in cards:
+            words = c.text.split()
+            head = words[0].lower() if words else ""
+            if not inside and head == ".lib" and len(words) == 2:
+                sections.append(words[1].lower())
+                if words[1].lower() == section:
+                    inside = found = True
+                continue
+            if inside and head == ".endl":
+                inside = False
+                continue
+            if inside:
+                chosen.append(c)
+        if not found:
+            known = ", ".join(sections) or "none"
+            raise card.error(
+                IncludeError, f"section {section!r} not found in {path} (sections there: {known})", name_field[2]
+            )
+        return chosen
+
+
+def load(path: str) -> Netlist:
+    """Read ``path`` and its includes into a :class:`Netlist`."""
+    return Loader(path).load()

@@ -1,0 +1,36 @@
+"""Shared helpers: write netlists into a temporary folder and run the CLI."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+SAMPLES = ROOT / "samples"
+
+
+@pytest.fixture
+def write(tmp_path):
+    """write(text, name='t.sp') -> path of a netlist written into tmp_path."""
+
+    def _write(text: str, name: str = "t.sp") -> str:
+        path = tmp_path / name
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_text(text, encoding="utf-8")
+        return str(path)
+
+    return _write
+
+
+def run_cli(*args: str, cwd: str | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
+    """Run the real entry point (``python -m tauscan``) in a subprocess."""
+    return subprocess.run(
+        [sys.executable, "-m", "tauscan", *args],
+        capture_output=True,
+        text=True,
+        cwd=cwd,
+        timeout=timeout,
+    )

@@ -7,6 +7,8 @@ parameters), with :mod:`expr` evaluating parameter expressions.
 
 from __future__ import annotations
 
+import gc
+
 from tauscan.circuit import Circuit
 from tauscan.reader.flatten import flatten
 from tauscan.reader.loader import load
@@ -17,7 +19,15 @@ def read_netlist(path: str, params: dict[str, float] | None = None) -> Circuit:
 
     ``params`` overrides global ``.param`` values (as ``--param`` does).
     """
-    return flatten(load(path), params)
+    # Reading makes millions of small tuples and no reference cycles; the cyclic
+    # garbage collector would rescan them again and again (about 40% of the time).
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        return flatten(load(path), params)
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 __all__ = ["read_netlist"]

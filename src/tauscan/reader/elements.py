@@ -33,6 +33,8 @@ class Frame(Protocol):
 
 
 def _need(pos: list[Field], count: int, card: Card, what: str) -> None:
+    if len(pos) >= count and all(f[0] == "w" for f in pos[:count]):
+        return
     if len(pos) < count:
         offset = pos[-1][2] + len(str(pos[-1][1])) if pos else len(card.text.split()[0])
         raise card.error(NetlistSyntaxError, f"missing {what}", offset)
@@ -42,10 +44,13 @@ def _need(pos: list[Field], count: int, card: Card, what: str) -> None:
 
 
 def _nodes(pos: list[Field], count: int, frame: Frame) -> tuple[str, ...]:
-    return tuple(frame.node(f[1]) for f in pos[:count])
+    node = frame.node
+    return tuple([node(f[1]) for f in pos[:count]])
 
 
 def _params(params: list[Field], card: Card, frame: Frame) -> dict[str, float]:
+    if not params:
+        return {}
     return {f[1][0]: frame.value(f[1][1], card) for f in params}
 
 
@@ -63,9 +68,13 @@ def _show(f: Field) -> str:
     return str(f[1])
 
 
+_PASSIVE_UNIT = {"r": "resistance", "c": "capacitance", "l": "inductance"}
+_PASSIVE_KEYS = {"r": ("r", "value", "res"), "c": ("c", "value", "cap"), "l": ("l", "value", "ind")}
+
+
 def passive(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
     """R, C, L: two nodes and a value (positional, or ``r=``/``c=``/``l=``/``value=``)."""
-    unit = {"r": "resistance", "c": "capacitance", "l": "inductance"}[letter]
+    unit = _PASSIVE_UNIT[letter]
     _need(pos, 2, card, "the two nodes")
     values = _params(params, card, frame)
     model = None
@@ -73,7 +82,7 @@ def passive(letter: str, name: str, pos: list[Field], params: list[Field], card:
         value = frame.value(pos[2], card)
         _extra(pos, 3, card)
     else:
-        for key in (letter, "value", {"r": "res", "c": "cap", "l": "ind"}[letter]):
+        for key in _PASSIVE_KEYS[letter]:
             if key in values:
                 value = values.pop(key)
                 break

@@ -19,6 +19,8 @@ else goes through the grammar.
 
 from __future__ import annotations
 
+import re
+
 from lark import Token, Tree
 from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
 
@@ -28,31 +30,38 @@ from tauscan.reader.lines import Card
 
 Field = tuple
 
-_NOT_FAST = frozenset("{}'\"(),")
+_NOT_FAST = re.compile(r"[{}'\"(),]")
+_TOKEN = re.compile(r"\S+")
 
 
 def fast_fields(text: str) -> list[Field] | None:
     """Fields of a plain element line, or None when the grammar must decide."""
-    if not text or _NOT_FAST.intersection(text):
+    if not text or _NOT_FAST.search(text) is not None:
         return None
-    words = text.split()
-    if not words or not words[0][0].isalpha() or "=" in words[0]:
-        return None
+    if "  " in text or "\t" in text or text[0] == " ":
+        words = [(m.group(), m.start()) for m in _TOKEN.finditer(text)]
+    else:  # single spaces: offsets by counting, no regex
+        words = []
+        pos = 0
+        for word in text.split(" "):
+            if word:
+                words.append((word, pos))
+            pos += len(word) + 1
     out: list[Field] = []
-    pos = 0
-    for word in words:
-        pos = text.find(word, pos)
-        if _directive_like(word):
-            return None
-        eq = word.find("=")
-        if eq < 0:
-            out.append(("w", word, pos))
-        else:
+    append = out.append
+    for word, pos in words:
+        if "=" in word:
+            eq = word.find("=")
             key, value = word[:eq], word[eq + 1 :]
             if not key or not value or "=" in value or _directive_like(key) or _directive_like(value):
                 return None
-            out.append(("p", (key.lower(), ("w", value, pos + eq + 1)), pos))
-        pos += len(word)
+            append(("p", (key.lower(), ("w", value, pos + eq + 1)), pos))
+        elif word[0] == "." and _directive_like(word):
+            return None
+        else:
+            append(("w", word, pos))
+    if not out or out[0][0] != "w" or not out[0][1][0].isalpha():
+        return None
     return out
 
 

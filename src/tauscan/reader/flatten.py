@@ -142,10 +142,11 @@ class Flattener:
                     self.circuit.options[key] = str(f[1])
 
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
-        pos = [f for f in fields[1:] if f[0] != "p"]
-        params = [f for f in fields[1:] if f[0] == "p"]
-        element = RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
-        return element
+        pos: list[Field] = []
+        params: list[Field] = []
+        for f in fields[1:]:
+            (params if f[0] == "p" else pos).append(f)
+        return RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
 
     def _add(self, element: Element, card: Card) -> None:
         first = self.seen.get(element.name)

@@ -9,7 +9,7 @@ text, the original line and column, so that errors point into the real file.
 from __future__ import annotations
 
 import bisect
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
 
@@ -27,14 +27,16 @@ class Card:
     file: str
     line: int
     comment: str = ""
-    # (offset in text, physical line, column of that offset in the physical line)
-    segments: list[tuple[int, int, int]] = field(default_factory=list)
-    physical: list[str] = field(default_factory=list)
+    raw: str = ""
+    # For cards joined from '+' lines: (offset in text, physical line, column of that
+    # offset in the physical line) per piece, and the physical lines; None for one line.
+    segments: list[tuple[int, int, int]] | None = None
+    physical: list[str] | None = None
 
     def locate(self, offset: int) -> tuple[int, int, str]:
         """Physical (line, 1-based column, source line text) of a text offset."""
-        if not self.segments:
-            return self.line, offset + 1, self.text
+        if not self.segments or not self.physical:
+            return self.line, offset + 1, self.raw
         starts = [s[0] for s in self.segments]
         k = max(bisect.bisect_right(starts, offset) - 1, 0)
         start, line, col0 = self.segments[k]
@@ -154,6 +156,9 @@ def logical_lines(text: str, file: str, *, has_title: bool) -> tuple[str, list[C
                     "continuation line '+' with no card before it", file, number, plus + 1, raw
                 )
             piece = body[plus + 1 :]
+            if current.segments is None or current.physical is None:
+                current.segments = [(0, current.line, 0)]
+                current.physical = [current.raw]
             current.segments.append((len(current.text) + 1, number, plus + 1))
             current.physical.append(raw)
             current.text += " " + piece
@@ -166,6 +171,6 @@ def logical_lines(text: str, file: str, *, has_title: bool) -> tuple[str, list[C
         if head.startswith(".end") and (len(head) == 4 or not head[4].isalnum()):
             current = None
             break
-        current = Card(body, file, number, comment, [(0, number, 0)], [raw])
+        current = Card(body, file, number, comment, raw)
         cards.append(current)
     return title, cards

@@ -1,0 +1,66 @@
+"""Reader speed: lines per second and peak memory for 10^4, 10^5 and 10^6 lines.
+
+Run: ``python benchmarks/bench_reader.py [--sizes 10000,100000,1000000]``.
+Each size runs in its own process so that the peak resident memory is its own.
+Prints the reader's rate, a bare ``str.split`` of the same file, and their ratio.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+sys.path.insert(0, HERE)
+
+
+def _child(path: str, mode: str) -> None:
+    start = time.perf_counter()
+    if mode == "split":
+        with open(path, encoding="utf-8") as handle:
+            count = sum(1 for line in handle.read().splitlines() if line.split())
+    else:
+        from tauscan.reader import read_netlist
+
+        count = len(read_netlist(path).elements)
+    seconds = time.perf_counter() - start
+    peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"{count} {seconds:.6f} {peak_mb:.1f}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--sizes", default="10000,100000,1000000")
+    parser.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
+    args = parser.parse_args()
+    if args.child:
+        _child(*args.child)
+        return
+    from netlist_gen import stage_chain
+
+    print(f"{'lines':>9} {'elements':>9} {'read s':>8} {'lines/s':>10} {'peak MB':>8} {'split s':>8} {'ratio':>6}")
+    for size in (int(s) for s in args.sizes.split(",")):
+        with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
+            handle.write(stage_chain(size))
+            path = handle.name
+        try:
+            lines = sum(1 for _ in open(path))
+            results = {}
+            for mode in ("read", "split"):
+                out = subprocess.run([sys.executable, __file__, "--child", path, mode], capture_output=True, text=True, check=True)
+                results[mode] = out.stdout.split()
+            count, seconds, peak = results["read"]
+            split_seconds = float(results["split"][1])
+            rate = lines / float(seconds)
+            print(f"{lines:>9} {count:>9} {float(seconds):>8.3f} {rate:>10.0f} {float(peak):>8.1f} {split_seconds:>8.3f} {float(seconds) / split_seconds:>6.1f}")
+        finally:
+            os.unlink(path)
+
+
+if __name__ == "__main__":
+    main()

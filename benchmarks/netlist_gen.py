@@ -1,0 +1,42 @@
+"""Generators of extracted-style netlists for the benchmarks (invented circuits)."""
+
+from __future__ import annotations
+
+MODELS = """\
+.model nch nmos level=1 (vto=0.45 kp=180u gamma=0.4 phi=0.8 lambda=0.08 tox=8n
++ cgso=0.3n cgdo=0.3n cgbo=0.1n cj=0.9m mj=0.45 cjsw=0.25n mjsw=0.3 pb=0.8)
+.model pch pmos level=1 (vto=-0.45 kp=70u gamma=0.4 phi=0.8 lambda=0.1 tox=8n
++ cgso=0.3n cgdo=0.3n cgbo=0.1n cj=0.9m mj=0.45 cjsw=0.25n mjsw=0.3 pb=0.8)
+"""
+
+
+def stage_chain(lines_wanted: int, segments: int = 4) -> str:
+    """A chain of resistor-loaded common-source stages, each output wired to the next
+    gate through an RC ladder of ``segments`` sections (wiring parasitics).
+
+    About ``4 + 2*segments`` lines per stage.
+    """
+    per_stage = 4 + 2 * segments
+    stages = max(1, lines_wanted // per_stage)
+    out = ["benchmark: chain of gain stages with RC wiring", MODELS.rstrip()]
+    out.append("Vdd vdd 0 dc 1.8")
+    out.append("Vin g0 0 dc 0.8 ac 1")
+    for k in range(stages):
+        gate = f"g{k}"
+        drain = f"d{k}"
+        out.append(f"M{k} {drain} {gate} 0 0 nch w=4u l=0.5u ad=2p as=2p pd=5u ps=5u")
+        out.append(f"Rl{k} vdd {drain} 30k")
+        out.append(f"Cd{k} {drain} 0 2f")
+        prev = drain
+        for s in range(segments):
+            node = f"w{k}_{s}" if s < segments - 1 else f"h{k + 1}"
+            out.append(f"Rw{k}_{s} {prev} {node} 25")
+            out.append(f"Cw{k}_{s} {node} 0 0.3f")
+            prev = node
+        # each stage's gate is biased through a large resistor from a divider node, AC coupled
+        out.append(f"Cc{k} h{k + 1} g{k + 1} 1p")
+        out.append(f"Rb{k} g{k + 1} bias 200k")
+    out.append("Rbias1 vdd bias 100k")
+    out.append("Rbias2 bias 0 80k")
+    out.append(".end")
+    return "\n".join(out) + "\n"

@@ -2,7 +2,7 @@ Sensor readout front end: resistively loaded common-source gain stage driving a 
 * Scenario of our own: a photodiode-style current input (modelled as a Norton source with its
 * junction capacitance) is converted and amplified before an on-chip sampling capacitor.
 * Model cards are invented for this demo; they describe no real process.
-.param vdd=1.8 wn=10u ln=0.5u rload=20k cpd=200f
+.param vdd=1.8 wn=4u ln=0.5u rload=20k cpd=200f
 .global vdd
 
 .model nch nmos level=1 (vto=0.45 kp=180u gamma=0.4 phi=0.8 lambda=0.08
@@ -10,7 +10,7 @@ Sensor readout front end: resistively loaded common-source gain stage driving a 
 
 Vsup vdd 0 dc {vdd}
 * the sensor: its source resistance and capacitance, biased at the amplifier's input level
-Vin  sens 0 dc 0.75 ac 1
+Vin  sens 0 dc 0.65 ac 1
 Rs   sens in 50k
 Cpd  in 0 {cpd}
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 
 from tauscan.circuit import Circuit
+from tauscan.report.console import text_console
 from tauscan.units import eng
 
 _UNITS = {"r": "ohm", "c": "F", "l": "H", "v": "V", "i": "A"}
@@ -15,10 +16,9 @@ def render_json(circuit: Circuit) -> str:
 
 
 def render_table(circuit: Circuit, width: int | None = None) -> str:
-    from rich.console import Console
     from rich.table import Table
 
-    console = Console(width=width or 120, record=True, file=_Null(), color_system=None)
+    console = text_console(width or 120)
     console.print(f"[bold]{circuit.title}[/bold]  ({circuit.file})")
     table = Table(title=f"{len(circuit.elements)} elements", title_justify="left")
     for column in ("element", "nodes", "value", "model", "parameters", "line"):
@@ -39,11 +39,3 @@ def render_table(circuit: Circuit, width: int | None = None) -> str:
     for w in circuit.warnings:
         console.print(f"warning: {w}")
     return console.export_text()
-
-
-class _Null:
-    def write(self, _text: str) -> int:
-        return 0
-
-    def flush(self) -> None:
-        pass

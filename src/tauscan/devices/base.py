@@ -1,0 +1,51 @@
+"""What every device group shares: the operating-point record of one device and
+its small-signal stamps."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass
+class SmallSignal:
+    """Linear primitives of one device at its operating point (node names, SI values).
+
+    ``conductances``: (part, a, b, g); ``vccs``: (part, p, n, cp, cn, gm), a current
+    ``gm*(v[cp]-v[cn])`` leaving node p into the device and entering n;
+    ``capacitors``: (part, a, b, C).
+    """
+
+    conductances: list[tuple[str, str, str, float]] = field(default_factory=list)
+    vccs: list[tuple[str, str, str, str, str, float]] = field(default_factory=list)
+    capacitors: list[tuple[str, str, str, float]] = field(default_factory=list)
+
+
+@dataclass
+class DeviceOP:
+    """One device at the operating point: what ``tauscan op`` reports and linearization uses.
+
+    ``values`` holds the named small-signal quantities (gm, gds, gmb for a
+    MOSFET; gm, go, gpi, gmu for a bipolar; gd for a diode); ``caps`` the
+    capacitances by part name; ``nodes`` the terminal -> node map used to
+    place them (for a MOSFET ``d``/``s`` are the *effective* drain and source:
+    swapped when VDS reverses).
+    """
+
+    name: str
+    type: str
+    model: str
+    region: str
+    current: float
+    bias: dict[str, float]
+    values: dict[str, float]
+    caps: dict[str, float]
+    nodes: dict[str, str]
+    series: dict[str, float] = field(default_factory=dict)
+    file: str = ""
+    line: int = 0
+    overridden: set[str] = field(default_factory=set)
+
+    def small_signal(self) -> SmallSignal:
+        from tauscan.devices import stamps
+
+        return stamps.build(self)

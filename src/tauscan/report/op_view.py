@@ -1,0 +1,50 @@
+"""``tauscan op``: node voltages and device operating points, as a table or JSON."""
+
+from __future__ import annotations
+
+import json
+
+from tauscan.op.result import OperatingPoint
+from tauscan.report.console import text_console
+from tauscan.units import eng
+
+
+def render_json(op: OperatingPoint) -> str:
+    return json.dumps(op.to_json(), indent=2) + "\n"
+
+
+def render_table(op: OperatingPoint, width: int = 120) -> str:
+    from rich.table import Table
+
+    console = text_console(width)
+    console.print(f"[bold]Operating point[/bold] of {op.circuit.file} at {op.temp_c:g} C "
+                  f"({op.strategy}, {op.iterations} iterations)")
+    nodes = Table(title="Node voltages", title_justify="left")
+    nodes.add_column("node")
+    nodes.add_column("voltage", justify="right")
+    for name, volts in op.node_voltages().items():
+        nodes.add_row(name, eng(volts, "V", 4))
+    console.print(nodes)
+    if op.devices:
+        dev = Table(title="Devices", title_justify="left")
+        for col in ("device", "type", "region", "current", "bias", "gm", "out. cond.", "capacitances"):
+            dev.add_column(col, justify="right" if col in ("current", "gm", "out. cond.") else "left")
+        for d in op.devices:
+            if d.type in ("nmos", "pmos"):
+                bias = f"vov={eng(d.bias['vov'], 'V')} vds={eng(d.bias['vds'], 'V')}"
+                out = eng(d.values["gds"], "S")
+            elif d.type in ("npn", "pnp"):
+                bias = f"vbe={eng(d.bias['vbe'], 'V')} vce={eng(d.bias['vce'], 'V')}"
+                out = eng(d.values["go"], "S")
+            else:
+                bias = f"vd={eng(d.bias['vd'], 'V')}"
+                out = eng(d.values["gd"], "S")
+            caps = " ".join(f"{k}={eng(v, 'F')}" for k, v in d.caps.items() if v)
+            mark = " *" if d.overridden else ""
+            dev.add_row(d.name + mark, d.type, d.region, eng(d.current, "A"), bias, eng(d.values.get("gm"), "S"), out, caps)
+        console.print(dev)
+        if any(d.overridden for d in op.devices):
+            console.print("* values given by the operating-point file")
+    for w in op.warnings:
+        console.print(f"warning: {w}")
+    return console.export_text()

@@ -27,6 +27,9 @@ from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
 from tauscan.op.result import OperatingPoint
 
+#: A device current above this (A) is reported as a sign of a broken bias network.
+MAX_DEVICE_CURRENT = 1.0
+
 GROUP_OF = {"m": MosGroup, "q": BjtGroup, "d": DiodeGroup}
 
 
@@ -151,8 +154,22 @@ class DCSolver:
             if volt.all() and curr.all():
                 _, _, _, check_states, _ = self._devices(x, states, limit=False)
                 if self._residual(x, scale, gshunt + s.gmin, check_states):
-                    return x, check_states, iteration + 1
+                    x, check_states = self._polish(x, scale, shunt, check_states)
+                    return x, check_states, iteration + 2
         raise _NotConverged(x, dx, step)
+
+    def _polish(self, x, scale, shunt, states):
+        """One more unlimited Newton step from a converged point: Newton's quadratic
+        convergence takes the error from about ``reltol`` to far below it, so that
+        results do not depend on where the iteration happened to stop."""
+        jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
+        a = (self.lin + jdev + shunt).tocsc()
+        xr = spla.splu(a).solve(scale * self.b[1:] - ieq[1:])
+        if not np.all(np.isfinite(xr)):
+            return x, states
+        x_new = np.concatenate([[0.0], xr])
+        _, _, _, polished_states, _ = self._devices(x_new, new_states, limit=False)
+        return x_new, polished_states
 
     def _singular(self, a) -> CircuitError:
         return CircuitError(
@@ -243,6 +260,12 @@ class DCSolver:
         order = {e.name: k for k, e in enumerate(self.circuit.elements)}
         devices.sort(key=lambda d: order[d.name])
         warnings = list(self.warnings)
+        for d in devices:
+            if abs(d.current) > MAX_DEVICE_CURRENT:
+                warnings.append(
+                    f"{d.name} carries {d.current:.3g} A at the operating point: a junction or channel is driven far "
+                    "outside its model's range; check the bias"
+                )
         for node in self.floating:
             warnings.append(f"node {node} has no DC path to ground; GMIN ({self.settings.gmin:g} S) holds it")
         return OperatingPoint(self.circuit, net, x_net, self.temp_c, devices, warnings, list(self.floating), iterations, strategy)

@@ -1,0 +1,62 @@
+"""DC operating point of a generated circuit with many transistors.
+
+Run: ``python benchmarks/bench_op.py [--transistors 10000]``.  Prints the Newton
+iterations, the total time and the time per iteration, and the share of one
+iteration spent in the sparse LU.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import tempfile
+import time
+
+import scipy.sparse.linalg as spla
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--transistors", type=int, default=10000)
+    args = parser.parse_args()
+    from netlist_gen import stage_chain
+
+    from tauscan.op.solver import DCSolver
+    from tauscan.reader import read_netlist
+
+    lines = args.transistors * 12
+    with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
+        handle.write(stage_chain(lines))
+        path = handle.name
+    try:
+        t0 = time.perf_counter()
+        circuit = read_netlist(path)
+        t1 = time.perf_counter()
+        solver = DCSolver(circuit, 27.0)
+        t2 = time.perf_counter()
+        op = solver.solve()
+        t3 = time.perf_counter()
+        # cost of one factorization of the final Jacobian, for comparison
+        import numpy as np
+
+        x = np.zeros(solver.size)
+        x[: op.network.size] = op.x
+        jdev, *_ = solver._devices(x, [None] * len(solver.groups), limit=False)
+        a = (solver.lin + jdev).tocsc()
+        t4 = time.perf_counter()
+        spla.splu(a)
+        t5 = time.perf_counter()
+    finally:
+        os.unlink(path)
+    n_mos = sum(1 for e in circuit.elements if e.kind == "m")
+    per_iter = (t3 - t2) / max(op.iterations, 1)
+    print(f"transistors {n_mos}, unknowns {solver.size - 1}")
+    print(f"read {t1 - t0:.2f} s, set-up {t2 - t1:.2f} s, solve {t3 - t2:.2f} s ({op.strategy}, {op.iterations} iterations)")
+    print(f"per iteration {per_iter * 1e3:.1f} ms, of which one sparse LU {(t5 - t4) * 1e3:.1f} ms")
+
+
+if __name__ == "__main__":
+    main()

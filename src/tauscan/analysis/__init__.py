@@ -1,0 +1,201 @@
+"""Small-signal analysis (METHOD in full): every capacitor's resistance, time constant,
+gain and Miller class; node sums; bandwidth estimate against the exact poles and -3 dB;
+and what to fix first.
+
+>>> from tauscan import api
+>>> result = api.scan("samples/sensor_readout.sp")          # doctest: +SKIP
+>>> result.capacitors_frame().head()                        # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from tauscan.analysis import poles as poles_mod
+from tauscan.analysis import timeconstants as tc
+from tauscan.analysis.result import Analysis, CapacitorResult, NodeResult
+from tauscan.analysis.zentries import by_columns, factor, z_entries
+from tauscan.circuit import Element
+from tauscan.errors import SettingsError
+from tauscan.linear.smallsignal import SmallSignalNetwork, linearize
+from tauscan.op.result import OperatingPoint
+
+
+@dataclass(frozen=True)
+class AnalysisSettings:
+    #: a node is Miller-dominated when its Miller part is at least this share of its time constant
+    miller_threshold: float = 0.5
+    #: "auto", "columns" or "selected" (see :mod:`tauscan.analysis.zentries`)
+    z_method: str = "auto"
+    dense_limit: int = poles_mod.DENSE_LIMIT
+    #: compute the -3 dB frequency (a frequency sweep with sparse solves)
+    response: bool = True
+
+
+def analyze(op: OperatingPoint, probe: str | None = None, source: str | None = None,
+            settings: AnalysisSettings | None = None) -> Analysis:
+    """Run the whole analysis at an operating point."""
+    settings = settings or AnalysisSettings()
+    ss = linearize(op)
+    return analyze_network(ss, op, probe, source, settings)
+
+
+def _source_element(ss: SmallSignalNetwork, name: str | None) -> Element | None:
+    circuit = ss.circuit
+    if name is not None:
+        key = name.lower()
+        for e in circuit.elements:
+            if e.name == key and e.kind in "vi":
+                return e
+        raise SettingsError(f"--source {name!r}: no independent voltage or current source of that name")
+    for e in circuit.elements:
+        if e.kind in "vi" and e.source is not None and e.source.ac_mag:
+            return e
+    return None
+
+
+def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | None, source: str | None,
+                    settings: AnalysisSettings) -> Analysis:
+    net = ss.network
+    warnings = list(op.warnings)
+    lu = factor(ss.g)
+    # -- capacitors ---------------------------------------------------------------
+    records = [r for r in ss.capacitors]
+    ground = ss.ac_ground
+    keep, excluded = [], []
+    for r in records:
+        if r.farads == 0 or (r.a in ground and r.b in ground) or r.a == r.b:
+            excluded.append(r.name)
+        else:
+            keep.append(r)
+    a_rows = np.array([-1 if r.a in ground else ss.row(r.a) for r in keep], dtype=np.int64)
+    b_rows = np.array([-1 if r.b in ground else ss.row(r.b) for r in keep], dtype=np.int64)
+    farads = np.array([r.farads for r in keep], dtype=float)
+    rows = np.concatenate([a_rows, b_rows, a_rows, b_rows])
+    cols = np.concatenate([a_rows, b_rows, b_rows, a_rows])
+    z, z_method = z_entries(ss, rows, cols, settings.z_method) if len(keep) else (np.zeros(0), "none")
+    m = len(keep)
+    zaa, zbb, zab, zba = z[:m], z[m : 2 * m], z[2 * m : 3 * m], z[3 * m :]
+    table = tc.capacitor_table(farads, a_rows < 0, b_rows < 0, zaa, zbb, zab, zba)
+    inductor_tau = _inductor_time_constants(ss, lu)
+    sum_tau = float(np.sum(table.tau)) + inductor_tau
+    octc = 1.0 / (2 * math.pi * sum_tau) if sum_tau > 0 else None
+    if sum_tau <= 0 and m:
+        warnings.append("the capacitors' time constants do not add up to a positive total; the estimate is meaningless here")
+    excess = tc.miller_excess(table)
+    cascoded = tc.cascoded_tau(table)
+    # -- poles and what to fix ---------------------------------------------------
+    found = poles_mod.find_poles(ss.g, ss.c, lu, settings.dense_limit)
+    warnings.extend(found.notes)
+    shares = np.full(m, np.nan)
+    if found.right is not None and found.left is not None and m:
+        shares = poles_mod.pole_shares(ss.c, found.right, found.left, a_rows, b_rows, farads)
+    dominant = found.dominant
+    # -- -3 dB ----------------------------------------------------------------------
+    src = _source_element(ss, source)
+    probe_name, f3, note, dc_gain = None, None, "", None
+    if src is None:
+        note = "no source with an AC value (name one with --source)"
+        if probe:
+            warnings.append("no AC source: the -3 dB frequency was not computed")
+    else:
+        b = net.ac_vector(src)[1:]
+        probe_name, probe_row = _probe(ss, lu, b, probe, src)
+        if probe_row is not None and settings.response:
+            resp = poles_mod.Response(ss.g, ss.c, b, probe_row)
+            dc_gain = abs(resp(0.0))
+            f3, note = poles_mod.f3db(resp, found)
+    # -- records ---------------------------------------------------------------------
+    caps = []
+    for k, r in enumerate(keep):
+        input_a = bool(table.input_is_a[k])
+        node_in, node_out = (r.a, r.b) if input_a else (r.b, r.a)
+        if table.grounded[k]:
+            node_out = "0"
+        part_in = table.part_a[k] if input_a else table.part_b[k]
+        part_out = table.part_b[k] if input_a else table.part_a[k]
+        removed = sum_tau - table.tau[k]
+        caps.append(CapacitorResult(
+            name=r.name, node_in=node_in, node_out=node_out, farads=r.farads, klass=str(table.klass[k]),
+            gain=None if table.grounded[k] else float(table.gain[k]),
+            gain_reverse=None if table.grounded[k] else float(table.gain_reverse[k]),
+            factor_in=float(table.factor_in[k]),
+            factor_out=None if table.grounded[k] else float(table.factor_out[k]),
+            ohms=float(table.ohms[k]), tau_s=float(table.tau[k]),
+            share=float(table.tau[k] / sum_tau) if sum_tau else math.nan,
+            part_in_s=float(part_in), part_out_s=float(part_out), miller_excess_s=float(excess[k]),
+            pole_share=float(shares[k]) if np.isfinite(shares[k]) else None,
+            octc_hz_if_removed=1.0 / (2 * math.pi * removed) if removed > 0 else None,
+            octc_hz_if_cascoded=(1.0 / (2 * math.pi * (sum_tau - table.tau[k] + cascoded[k]))
+                                 if np.isfinite(cascoded[k]) and sum_tau - table.tau[k] + cascoded[k] > 0 else None),
+            file=r.file, line=r.line, device=r.device, comment=r.comment,
+        ))
+    caps.sort(key=lambda c: (-c.tau_s, c.name))
+    nodes = _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, settings.miller_threshold)
+    methods = {"z": z_method, "poles": found.method}
+    return Analysis(
+        netlist=ss.circuit.file, title=ss.circuit.title, source=src.name if src else None, probe=probe_name,
+        sum_tau_s=sum_tau, octc_hz=octc, poles=[complex(p) for p in found.values], poles_complete=found.complete,
+        dominant_pole_hz=abs(dominant) / (2 * math.pi) if dominant is not None else None,
+        dominant_q=poles_mod.quality_factor(dominant) if dominant is not None else None,
+        f3db_hz=f3, f3db_note=note, dc_gain=dc_gain, capacitors=caps, nodes=nodes, inductor_tau_s=inductor_tau,
+        excluded=excluded, warnings=warnings, methods=methods,
+        bias_regions={d.name: d.region for d in op.devices}, floating=list(op.floating),
+    )
+
+
+def _inductor_time_constants(ss: SmallSignalNetwork, lu) -> float:
+    """Sum of L / R for the inductors (R: the resistance each sees with the capacitors open)."""
+    net = ss.network
+    inductors = [e for e in ss.circuit.elements if e.kind == "l"]
+    if not inductors:
+        return 0.0
+    rows = np.array([net.branch_of[e.name] - 1 for e in inductors], dtype=np.int64)
+    w = by_columns(ss.g, rows, rows, lu)
+    return float(sum(-e.value * wk for e, wk in zip(inductors, w)))
+
+
+def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: Element):
+    net = ss.network
+    if probe is not None:
+        key = probe.lower()
+        if key not in net.index or key in net.internal:
+            raise SettingsError(f"--probe {probe!r}: no such node in the circuit")
+        if key in ss.ac_ground:
+            raise SettingsError(f"--probe {probe!r} is an AC ground (tied to ground through voltage sources)")
+        return key, ss.row(key)
+    x = lu.solve(b.real) if not np.iscomplexobj(b) or not np.any(b.imag) else None
+    if x is None:
+        return None, None
+    n = ss.n_nodes
+    mags = np.abs(x[:n])
+    for name in ss.ac_ground:
+        if name in net.index and net.index[name] > 0:
+            mags[net.index[name] - 1] = -1
+    for name in net.internal:
+        mags[net.index[name] - 1] = -1
+    if not np.any(mags > 0):
+        return None, None
+    row = int(np.argmax(mags))
+    return net.nodes[row + 1], row
+
+
+def _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, threshold) -> list[NodeResult]:
+    n = ss.n_nodes
+    node_tau, miller = tc.node_sums([], a_rows, b_rows, table, n, excess)
+    out = []
+    touched = set(a_rows[a_rows >= 0]) | set(b_rows[b_rows >= 0])
+    names = ss.network.nodes
+    for row in sorted(touched):
+        t = float(node_tau[row])
+        mt = float(miller[row])
+        out.append(NodeResult(
+            node=names[row + 1], tau_s=t, share=t / sum_tau if sum_tau else math.nan,
+            miller_tau_s=mt, miller_share=mt / t if t > 0 else 0.0,
+            miller_dominated=bool(t > 0 and mt >= threshold * t),
+        ))
+    out.sort(key=lambda r: (-r.tau_s, r.node))
+    return out

@@ -1,0 +1,170 @@
+"""The analysis result: capacitors and nodes ranked, bandwidth figures, poles.
+
+Plain records with a JSON form and pandas views for notebooks and scripts.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+
+
+def _finite(x: float | None) -> float | None:
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+@dataclass
+class CapacitorResult:
+    name: str
+    node_in: str
+    node_out: str
+    farads: float
+    klass: str
+    gain: float | None
+    gain_reverse: float | None
+    factor_in: float
+    factor_out: float | None
+    ohms: float
+    tau_s: float
+    share: float
+    part_in_s: float
+    part_out_s: float
+    miller_excess_s: float
+    pole_share: float | None
+    octc_hz_if_removed: float | None
+    octc_hz_if_cascoded: float | None
+    file: str
+    line: int
+    device: str | None = None
+    comment: str = ""
+    waived: str | None = None
+
+    def to_json(self) -> dict:
+        return {
+            "name": self.name,
+            "node_in": self.node_in,
+            "node_out": self.node_out,
+            "farads": self.farads,
+            "class": self.klass,
+            "gain": _finite(self.gain),
+            "factor_in": _finite(self.factor_in),
+            "factor_out": _finite(self.factor_out),
+            "ohms": _finite(self.ohms),
+            "tau_s": _finite(self.tau_s),
+            "share": _finite(self.share),
+            "pole_share": _finite(self.pole_share),
+            "octc_hz_if_removed": _finite(self.octc_hz_if_removed),
+            "octc_hz_if_cascoded": _finite(self.octc_hz_if_cascoded),
+            "tau_in_s": _finite(self.part_in_s),
+            "tau_out_s": _finite(self.part_out_s),
+            "file": self.file,
+            "line": self.line,
+            "waived": self.waived,
+        }
+
+
+@dataclass
+class NodeResult:
+    node: str
+    tau_s: float
+    share: float
+    miller_tau_s: float
+    miller_share: float
+    miller_dominated: bool
+
+    def to_json(self) -> dict:
+        return {
+            "node": self.node,
+            "tau_s": _finite(self.tau_s),
+            "share": _finite(self.share),
+            "miller_share": _finite(self.miller_share),
+            "miller_dominated": bool(self.miller_dominated),
+        }
+
+
+@dataclass
+class Analysis:
+    netlist: str
+    title: str
+    source: str | None
+    probe: str | None
+    sum_tau_s: float
+    octc_hz: float | None
+    poles: list[complex]
+    poles_complete: bool
+    dominant_pole_hz: float | None
+    dominant_q: float | None
+    f3db_hz: float | None
+    f3db_note: str
+    dc_gain: float | None
+    capacitors: list[CapacitorResult]
+    nodes: list[NodeResult]
+    inductor_tau_s: float = 0.0
+    excluded: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    methods: dict[str, str] = field(default_factory=dict)
+    bias_regions: dict[str, str] = field(default_factory=dict)
+    floating: list[str] = field(default_factory=list)
+
+    @property
+    def estimate_error(self) -> float | None:
+        """How far the open-circuit estimate is from the exact -3 dB (or dominant pole): octc/exact - 1."""
+        exact = self.f3db_hz or self.dominant_pole_hz
+        if not exact or not self.octc_hz:
+            return None
+        return self.octc_hz / exact - 1.0
+
+    def capacitor(self, name: str) -> CapacitorResult:
+        for cap in self.capacitors:
+            if cap.name == name:
+                return cap
+        raise KeyError(name)
+
+    def node(self, name: str) -> NodeResult:
+        for n in self.nodes:
+            if n.node == name:
+                return n
+        raise KeyError(name)
+
+    def capacitors_frame(self):
+        """The ranked capacitors as a pandas DataFrame (one row each, JSON field names)."""
+        import pandas as pd
+
+        return pd.DataFrame([c.to_json() for c in self.capacitors], columns=CAPACITOR_COLUMNS)
+
+    def nodes_frame(self):
+        import pandas as pd
+
+        return pd.DataFrame([n.to_json() for n in self.nodes], columns=NODE_COLUMNS)
+
+    def to_json(self) -> dict:
+        return {
+            "netlist": self.netlist,
+            "source": self.source,
+            "probe": self.probe,
+            "summary": {
+                "sum_tau_s": _finite(self.sum_tau_s),
+                "octc_hz": _finite(self.octc_hz),
+                "dominant_pole_hz": _finite(self.dominant_pole_hz),
+                "dominant_pole_q": _finite(self.dominant_q),
+                "f3db_hz": _finite(self.f3db_hz),
+                "estimate_error": _finite(self.estimate_error),
+                "dc_gain": _finite(self.dc_gain),
+            },
+            "capacitors": [c.to_json() for c in self.capacitors],
+            "nodes": [n.to_json() for n in self.nodes],
+            "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],
+            "warnings": list(self.warnings),
+        }
+
+
+CAPACITOR_COLUMNS = [
+    "name", "node_in", "node_out", "farads", "class", "gain", "factor_in", "factor_out", "ohms", "tau_s",
+    "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded", "tau_in_s", "tau_out_s", "file", "line", "waived",
+]
+NODE_COLUMNS = ["node", "tau_s", "share", "miller_share", "miller_dominated"]
+
+__all__ = ["Analysis", "CapacitorResult", "NodeResult", "CAPACITOR_COLUMNS", "NODE_COLUMNS", "asdict"]

@@ -1,0 +1,119 @@
+"""The small-signal network (METHOD section 1): ``(G + sC) x = b``.
+
+Every element is replaced by its linear model at the operating point;
+independent voltage sources become shorts (their MNA rows with zero value) and
+current sources opens.  G holds conductances, transconductances and the
+branch rows; C the capacitances (and ``-L`` in inductor rows).  GMIN is put
+from every node to ground.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+
+from tauscan.circuit import GROUND, Circuit, Element
+from tauscan.network import GMIN, Network, Triplets
+from tauscan.op.result import OperatingPoint
+
+
+@dataclass(frozen=True)
+class CapacitorRecord:
+    """One capacitor of the small-signal network: an element or a device part (``m1:cgd``)."""
+
+    name: str
+    a: str
+    b: str
+    farads: float
+    file: str
+    line: int
+    device: str | None = None  # the device it belongs to, for device parts
+    comment: str = ""
+
+
+@dataclass
+class SmallSignalNetwork:
+    circuit: Circuit
+    network: Network
+    g: sp.csc_matrix  # (size-1)^2, ground dropped
+    c: sp.csc_matrix
+    capacitors: list[CapacitorRecord]
+    ac_ground: set[str]
+    gmin: float
+
+    @property
+    def n_nodes(self) -> int:
+        """Node unknowns (ground excluded); the first rows of G and C."""
+        return self.network.n_nodes - 1
+
+    def row(self, node: str) -> int:
+        """Row of a node in G and C (-1 for ground)."""
+        return self.network.node(node) - 1
+
+
+def ac_grounds(circuit: Circuit) -> set[str]:
+    """Nodes tied to ground through independent voltage sources only (METHOD section 1)."""
+    adjacent: dict[str, list[str]] = {}
+    for e in circuit.elements:
+        if e.kind == "v":
+            a, b = e.nodes
+            adjacent.setdefault(a, []).append(b)
+            adjacent.setdefault(b, []).append(a)
+    grounded = {GROUND}
+    stack = [GROUND]
+    while stack:
+        node = stack.pop()
+        for other in adjacent.get(node, []):
+            if other not in grounded:
+                grounded.add(other)
+                stack.append(other)
+    return grounded
+
+
+def _device_stamps(op: OperatingPoint, g: Triplets) -> list[CapacitorRecord]:
+    idx = op.network.index
+    caps: list[CapacitorRecord] = []
+    for dev in op.devices:
+        ss = dev.small_signal()
+        for _part, a, b, value in ss.conductances:
+            if value:
+                g.conductance(idx[a], idx[b], value)
+        for _part, p, n, cp, cn, value in ss.vccs:
+            if value:
+                g.transconductance(idx[p], idx[n], idx[cp], idx[cn], value)
+        for part, a, b, value in ss.capacitors:
+            caps.append(CapacitorRecord(f"{dev.name}:{part}", a, b, value, dev.file, dev.line, dev.name))
+    return caps
+
+
+def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
+    """Build sparse G and C at the operating point, and the list of every capacitor."""
+    net = op.network
+    circuit = op.circuit
+    g = net.linear_g()
+    c = net.linear_c()
+    device_caps = _device_stamps(op, g)
+    g.extend(net.gmin_triplets(gmin))
+    idx = net.index
+    for cap in device_caps:
+        c.conductance(idx[cap.a], idx[cap.b], cap.farads)
+    explicit = [_explicit(e) for e in circuit.elements if e.kind == "c"]
+    return SmallSignalNetwork(
+        circuit=circuit,
+        network=net,
+        g=g.matrix(net.size),
+        c=c.matrix(net.size),
+        capacitors=explicit + device_caps,
+        ac_ground=ac_grounds(circuit),
+        gmin=gmin,
+    )
+
+
+def _explicit(e: Element) -> CapacitorRecord:
+    return CapacitorRecord(e.name, e.nodes[0], e.nodes[1], float(e.value) * e.params.get("m", 1.0), e.file, e.line, None, e.comment)
+
+
+def dense(matrix: sp.spmatrix) -> np.ndarray:
+    return matrix.toarray()

@@ -95,9 +95,11 @@ def cascoded_tau(t: CapacitorTable) -> np.ndarray:
 def node_sums(names: list[str], a_index: np.ndarray, b_index: np.ndarray, t: CapacitorTable, n_nodes: int,
               excess: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Per node: its time constant (the parts at it) and its Miller part (METHOD section 3)."""
-    tau = np.bincount(a_index[a_index >= 0], t.part_a[a_index >= 0], minlength=n_nodes)
-    tau += np.bincount(b_index[b_index >= 0], t.part_b[b_index >= 0], minlength=n_nodes)
+    tau = np.zeros(n_nodes)
+    np.add.at(tau, a_index[a_index >= 0], t.part_a[a_index >= 0])
+    np.add.at(tau, b_index[b_index >= 0], t.part_b[b_index >= 0])
     input_index = np.where(t.input_is_a, a_index, b_index)
     ok = input_index >= 0
-    miller = np.bincount(input_index[ok], excess[ok], minlength=n_nodes)
+    miller = np.zeros(n_nodes)
+    np.add.at(miller, input_index[ok], excess[ok])
     return tau, miller

@@ -17,6 +17,43 @@ def add_subcommands(sub, add_common: Callable[[argparse.ArgumentParser], None]) 
     p.add_argument("-o", "--output", metavar="FILE", help="write to FILE instead of standard output")
     p.set_defaults(handler=cmd_op)
 
+    p = sub.add_parser("scan", help="rank the capacitors and nodes that limit the bandwidth")
+    add_common(p)
+    _add_bias_options(p)
+    _add_analysis_options(p)
+    p.add_argument("--format", choices=["table", "json", "csv", "markdown", "sarif"], default="table")
+    p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
+    p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
+    p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
+    p.set_defaults(handler=cmd_scan)
+
+    p = sub.add_parser("check", help="lint gate: findings against thresholds and waivers, with exit codes")
+    p.add_argument("netlist", nargs="+", help="SPICE-format netlist files")
+    p.add_argument("--param", action="append", default=[], metavar="NAME=VALUE", help="override a .param (repeatable)")
+    _add_bias_options(p)
+    _add_analysis_options(p)
+    p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
+    p.add_argument("--format", choices=["table", "json", "sarif"], default="table")
+    p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
+    p.set_defaults(handler=cmd_check)
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, not {text!r}") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError("expected 0 or more")
+    return value
+
+
+def _add_analysis_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--probe", metavar="NODE", help="output node for the -3 dB frequency (default: the largest gain)")
+    p.add_argument("--source", metavar="NAME", help="input source (default: the one with an AC value)")
+    p.add_argument("--min-bandwidth", metavar="FREQ", help="bandwidth-floor rule threshold, e.g. 100k or 2.5meg")
+    p.add_argument("--config", metavar="FILE", help="settings file (default: tauscan.toml or pyproject.toml found upwards)")
+
 
 def _add_bias_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--temp", type=float, metavar="C", help="temperature in Celsius (overrides .temp)")
@@ -54,3 +91,86 @@ def cmd_op(args: argparse.Namespace) -> int:
     text = op_view.render_json(op) if args.format == "json" else op_view.render_table(op)
     write_text(text, args.output, protect=(args.netlist,))
     return 0
+
+
+def _requests(args: argparse.Namespace, netlists: list[str]):
+    from tauscan.cli import parse_params
+    from tauscan.lint.settings import bandwidth_value
+    from tauscan.pipeline import ScanRequest
+
+    floor = bandwidth_value(args.min_bandwidth) if args.min_bandwidth else None
+    params = parse_params(args.param)
+    return [ScanRequest(netlist=n, params=params, temp_c=args.temp, op_file=args.op_file, probe=args.probe,
+                        source=args.source, config=args.config, min_bandwidth=floor,
+                        fail_on=getattr(args, "fail_on", None)) for n in netlists]
+
+
+def _run_all(requests):
+    from tauscan.pipeline import scan
+    from tauscan.report.progress import StageProgress
+
+    with StageProgress() as progress:
+        return [scan(r, progress) for r in requests]
+
+
+def cmd_scan(args: argparse.Namespace) -> int:
+    from tauscan.report.output import write_bytes, write_text
+
+    runs = _run_all(_requests(args, [args.netlist]))
+    top = args.top or None
+    fmt = args.format
+    if fmt == "table" and args.output is None:
+        from tauscan.report import scan_table
+
+        scan_table.print_to_terminal(runs, top)
+    else:
+        write_text(_render(fmt, runs, top), args.output, protect=(args.netlist,))
+    if args.plot:
+        from tauscan.report import plot
+
+        freqs, mags = runs[0].response_curve()
+        write_bytes(plot.render(runs[0], freqs, mags, args.plot), args.plot, protect=(args.netlist,))
+    return 0
+
+
+def _render(fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
+    if fmt == "json":
+        from tauscan.report import scan_json
+
+        return scan_json.render(runs, exit_code)
+    if fmt == "csv":
+        from tauscan.report import scan_csv
+
+        return scan_csv.render(runs)
+    if fmt == "markdown":
+        from tauscan.report import scan_markdown
+
+        return scan_markdown.render(runs, top)
+    if fmt == "sarif":
+        from tauscan.report import sarif
+
+        return sarif.render(runs)
+    from tauscan.report import scan_table
+
+    return scan_table.render(runs, top)
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from tauscan.lint.gate import exit_code
+    from tauscan.report.output import write_text
+
+    runs = _run_all(_requests(args, args.netlist))
+    code = max(exit_code(r.lint.findings, r.settings.fail_on) for r in runs)
+    if args.format == "table":
+        from tauscan.report import check_table
+
+        text = check_table.render(runs, code)
+        if args.output is None:
+            check_table.print_to_terminal(runs, code)
+            return code
+    elif args.format == "json":
+        text = _render("json", runs, None, code)
+    else:
+        text = _render("sarif", runs, None)
+    write_text(text, args.output, protect=tuple(args.netlist))
+    return code

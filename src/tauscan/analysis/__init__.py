@@ -107,7 +107,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
         if probe_row is not None and settings.response:
             resp = poles_mod.Response(ss.g, ss.c, b, probe_row)
             dc_gain = abs(resp(0.0))
-            f3, note = poles_mod.f3db(resp, found)
+            f3, note = poles_mod.f3db(resp, found, octc)
     # -- records ---------------------------------------------------------------------
     caps = []
     for k, r in enumerate(keep):

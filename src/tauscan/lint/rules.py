@@ -1,0 +1,146 @@
+"""The lint rules.  Each has an id, a default severity and a function from an analysis
+(plus its circuit and settings) to findings.  To add a rule: write the function,
+register it in :data:`RULES` with its text, and add a test with a netlist that
+triggers it and one that does not (see DEVELOPERS.md)."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from tauscan.lint.findings import Finding
+from tauscan.units import eng
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str
+    severity: str
+    summary: str
+    description: str
+    check: Callable
+
+
+def _first_lines(circuit) -> dict[str, tuple[str, int]]:
+    """Node -> (file, line) of the first element that touches it."""
+    out: dict[str, tuple[str, int]] = {}
+    for e in circuit.elements:
+        for node in e.nodes:
+            out.setdefault(node, (e.file, e.line))
+    return out
+
+
+def miller_node(ctx) -> list[Finding]:
+    a, s = ctx.analysis, ctx.settings
+    lines = _first_lines(ctx.circuit)
+    # a waived capacitor's Miller part does not count toward a node finding
+    waived_excess: dict[str, float] = {}
+    for cap in a.capacitors:
+        if cap.name in ctx.waivers and cap.miller_excess_s:
+            waived_excess[cap.node_in] = waived_excess.get(cap.node_in, 0.0) + cap.miller_excess_s
+    found = []
+    for node in a.nodes:
+        miller = node.miller_tau_s - waived_excess.get(node.node, 0.0)
+        if node.tau_s <= 0 or node.share < s.miller_share:
+            continue
+        if miller < s.miller_threshold * node.tau_s:
+            continue
+        caps = [c for c in a.capacitors if c.node_in == node.node and c.klass == "miller" and c.name not in ctx.waivers]
+        caps.sort(key=lambda c: -c.miller_excess_s)
+        worst = caps[0] if caps else None
+        file, line = lines.get(node.node, (a.netlist, None))
+        if worst is not None:
+            file, line = worst.file, worst.line
+        found.append(Finding(
+            "miller-node", ctx.level("miller-node"), file, line, node.node,
+            "node {} carries {:.0%} of the total time constant, {:.0%} of it Miller multiplication{}",
+            (node.node, node.share, miller / node.tau_s,
+             f" (mostly {worst.name}, gain {worst.gain:.3g}, factor {worst.factor_in:.3g})" if worst else ""),
+            {"share": node.share, "miller_share": miller / node.tau_s, "tau_s": node.tau_s},
+        ))
+    return found
+
+
+def bandwidth_floor(ctx) -> list[Finding]:
+    a, s = ctx.analysis, ctx.settings
+    if s.min_bandwidth is None:
+        return []
+    if ctx.probe_given and a.f3db_hz is not None:
+        figure, what = a.f3db_hz, f"-3 dB bandwidth at {a.probe}"
+    else:
+        figure, what = a.octc_hz, "open-circuit time-constant estimate"
+    if figure is None or figure >= s.min_bandwidth:
+        return []
+    top = a.capacitors[0] if a.capacitors else None
+    return [Finding(
+        "bandwidth-floor", ctx.level("bandwidth-floor"), top.file if top else a.netlist, top.line if top else None,
+        a.probe or "circuit",
+        "{} is {}, below the floor of {}{}",
+        (what, eng(figure, "Hz"), eng(s.min_bandwidth, "Hz"),
+         f"; the largest time constant is {top.name} ({top.share:.0%})" if top else ""),
+        {"hz": figure, "floor_hz": s.min_bandwidth},
+    )]
+
+
+def regenerative_cap(ctx) -> list[Finding]:
+    out = []
+    for cap in ctx.analysis.capacitors:
+        if cap.klass == "regenerative" and cap.name not in ctx.waivers:
+            out.append(Finding(
+                "regenerative-cap", ctx.level("regenerative-cap"), cap.file, cap.line, cap.name,
+                "{} spans a gain of {:.3g} from {} to {}: its input sees a negative capacitance (positive feedback)",
+                (cap.name, cap.gain, cap.node_in, cap.node_out), {"gain": cap.gain},
+            ))
+    return out
+
+
+def floating_node(ctx) -> list[Finding]:
+    lines = _first_lines(ctx.circuit)
+    out = []
+    for node in ctx.analysis.floating:
+        file, line = lines.get(node, (ctx.analysis.netlist, None))
+        out.append(Finding(
+            "floating-node", ctx.level("floating-node"), file, line, node,
+            "node {} has no DC path to ground; only GMIN holds its bias", (node,), {},
+        ))
+    return out
+
+
+_BAD_REGIONS = {"triode", "cutoff", "saturation"}
+
+
+def bias_region(ctx) -> list[Finding]:
+    out = []
+    for dev in ctx.op.devices:
+        mos = dev.type in ("nmos", "pmos")
+        bad = (mos and dev.region in ("triode", "cutoff")) or (dev.type in ("npn", "pnp") and dev.region in ("saturation", "cutoff"))
+        if not bad or not ctx.carries_signal(dev):
+            continue
+        out.append(Finding(
+            "bias-region", ctx.level("bias-region"), dev.file, dev.line, dev.name,
+            "{} ({}) is in {} but carries signal: its gain and capacitances are far from an amplifier's",
+            (dev.name, dev.type, dev.region), {"region": dev.region},
+        ))
+    return out
+
+
+RULES: dict[str, Rule] = {
+    r.id: r
+    for r in (
+        Rule("miller-node", "warning", "Miller-dominated node",
+             "A node whose time constant is mostly Miller multiplication and that carries a large share of the total.",
+             miller_node),
+        Rule("bandwidth-floor", "error", "Bandwidth below the floor",
+             "The open-circuit estimate (or the -3 dB frequency at a named probe) is below --min-bandwidth.",
+             bandwidth_floor),
+        Rule("regenerative-cap", "warning", "Capacitor across a gain of one or more",
+             "A capacitor spanning a non-inverting gain of 1 or more: its input sees a negative capacitance.",
+             regenerative_cap),
+        Rule("floating-node", "warning", "Node without a DC path",
+             "A node with no DC path to ground; only GMIN holds it, so its bias is not defined by the circuit.",
+             floating_node),
+        Rule("bias-region", "warning", "Signal transistor outside its amplifying region",
+             "A transistor in triode or cutoff (or a saturated or cut-off bipolar) on the signal path.",
+             bias_region),
+    )
+}

@@ -1,0 +1,158 @@
+"""Lint settings: ``[tool.tauscan]`` in a pyproject.toml, or a ``tauscan.toml``, found from
+the netlist's folder upwards; command-line options override them.
+
+Keys (all optional)::
+
+    min-bandwidth   = "100k"     # bandwidth-floor: octc_hz, or f3db_hz at a given probe
+    miller-share    = 0.2        # miller-node: share of the total a node must carry
+    miller-threshold = 0.5       # a node is Miller-dominated above this Miller share
+    fail-on         = "warning"  # exit 1 on findings at or above: note|warning|error|never
+    probe           = "out"
+    source          = "vin"
+    [severity]                   # per-rule overrides: "miller-node" = "error"
+    [waive]                      # capacitor-name glob = reason
+    "ccomp" = "compensation capacitor, Miller by design"
+
+In a pyproject.toml the tables are ``[tool.tauscan]``, ``[tool.tauscan.severity]`` and
+``[tool.tauscan.waive]``.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field, replace
+
+from tauscan.errors import SettingsError
+from tauscan.lint.findings import SEVERITIES
+from tauscan.units import parse_number
+
+try:  # Python 3.11+
+    import tomllib
+except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+    import tomli as tomllib  # type: ignore[no-redef]
+
+KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive"}
+
+
+@dataclass(frozen=True)
+class LintSettings:
+    min_bandwidth: float | None = None
+    miller_share: float = 0.2
+    miller_threshold: float = 0.5
+    fail_on: str = "warning"
+    probe: str | None = None
+    source: str | None = None
+    severity: dict = field(default_factory=dict)
+    waive: dict = field(default_factory=dict)  # glob -> reason
+    origin: str | None = None  # the file the settings came from
+
+    def merged(self, **overrides) -> "LintSettings":
+        return replace(self, **{k: v for k, v in overrides.items() if v is not None})
+
+
+def find_config(start: str) -> str | None:
+    """The first tauscan.toml, or pyproject.toml with a [tool.tauscan] table, from ``start`` up."""
+    folder = os.path.abspath(start if os.path.isdir(start) else os.path.dirname(start) or ".")
+    while True:
+        candidate = os.path.join(folder, "tauscan.toml")
+        if os.path.isfile(candidate):
+            return candidate
+        candidate = os.path.join(folder, "pyproject.toml")
+        if os.path.isfile(candidate):
+            try:
+                with open(candidate, "rb") as handle:
+                    data = tomllib.load(handle)
+            except (OSError, tomllib.TOMLDecodeError):
+                data = {}
+            if "tauscan" in data.get("tool", {}):
+                return candidate
+        parent = os.path.dirname(folder)
+        if parent == folder:
+            return None
+        folder = parent
+
+
+def _line_of(text: str, key: str) -> int | None:
+    for number, line in enumerate(text.splitlines(), start=1):
+        if line.strip().startswith((key, f'"{key}"', f"'{key}'")):
+            return number
+    return None
+
+
+def load(path: str) -> LintSettings:
+    try:
+        with open(path, "rb") as handle:
+            raw = handle.read()
+        data = tomllib.loads(raw.decode("utf-8"))
+    except OSError as exc:
+        raise SettingsError(f"cannot read the settings ({exc.strerror})", path) from None
+    except UnicodeDecodeError:
+        raise SettingsError("settings file is not UTF-8", path) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise SettingsError(f"not valid TOML: {exc}", path) from None
+    text = raw.decode("utf-8")
+    if os.path.basename(path) == "pyproject.toml":
+        data = data.get("tool", {}).get("tauscan", {})
+    return from_mapping(data, path, text)
+
+
+def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
+    unknown = set(data) - KEYS
+    if unknown:
+        key = sorted(unknown)[0]
+        raise SettingsError(f"unknown setting {key!r} (known: {', '.join(sorted(KEYS))})", path, _line_of(text, key))
+    values: dict = {"origin": path}
+    if "min-bandwidth" in data:
+        values["min_bandwidth"] = bandwidth_value(data["min-bandwidth"], path, _line_of(text, "min-bandwidth"))
+    for key, attr in (("miller-share", "miller_share"), ("miller-threshold", "miller_threshold")):
+        if key in data:
+            value = data[key]
+            if not isinstance(value, (int, float)) or isinstance(value, bool) or not 0 <= value <= 1:
+                raise SettingsError(f"{key} must be a number between 0 and 1", path, _line_of(text, key))
+            values[attr] = float(value)
+    if "fail-on" in data:
+        values["fail_on"] = fail_on_value(data["fail-on"], path, _line_of(text, "fail-on"))
+    for key in ("probe", "source"):
+        if key in data:
+            if not isinstance(data[key], str):
+                raise SettingsError(f"{key} must be a string", path, _line_of(text, key))
+            values[key] = data[key]
+    if "severity" in data:
+        table = data["severity"]
+        from tauscan.lint.rules import RULES
+
+        if not isinstance(table, dict):
+            raise SettingsError("severity must be a table of rule = level", path, _line_of(text, "severity"))
+        for rule, level in table.items():
+            if rule not in RULES:
+                raise SettingsError(f"unknown rule {rule!r} in severity", path, _line_of(text, rule))
+            if level not in SEVERITIES:
+                raise SettingsError(f"severity of {rule} must be one of {', '.join(SEVERITIES)}", path, _line_of(text, rule))
+        values["severity"] = dict(table)
+    if "waive" in data:
+        table = data["waive"]
+        if not isinstance(table, dict) or not all(isinstance(v, str) and v.strip() for v in table.values()):
+            raise SettingsError("waive must be a table of capacitor-name glob = reason", path, _line_of(text, "waive"))
+        values["waive"] = {k.lower(): v for k, v in table.items()}
+    return LintSettings(**values)
+
+
+def bandwidth_value(raw, path: str | None = None, line: int | None = None) -> float:
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        value = float(raw)
+    elif isinstance(raw, str):
+        text = raw.strip()
+        if text.lower().endswith("hz"):
+            text = text[:-2]
+        value = parse_number(text)
+    else:
+        value = None
+    if value is None or value <= 0:
+        raise SettingsError(f"min-bandwidth takes a positive frequency such as 100k or 2.5meg, not {raw!r}", path, line)
+    return value
+
+
+def fail_on_value(raw, path: str | None = None, line: int | None = None) -> str:
+    if raw not in (*SEVERITIES, "never"):
+        raise SettingsError(f"fail-on must be one of note, warning, error, never; not {raw!r}", path, line)
+    return raw

@@ -1,0 +1,87 @@
+"""One scan of one netlist through every stage: read -> operating point -> linearize ->
+analyze -> lint.  Each stage takes the previous stage's objects and returns its own."""
+
+from __future__ import annotations
+
+import os
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+
+from tauscan.analysis import AnalysisSettings, analyze_network
+from tauscan.analysis.result import Analysis
+from tauscan.circuit import Circuit
+from tauscan.lint import settings as lint_settings
+from tauscan.lint.gate import LintResult, run_rules, signal_nodes
+from tauscan.linear import linearize
+from tauscan.op import OperatingPoint, operating_point
+from tauscan.reader import read_netlist
+
+
+@dataclass
+class ScanRequest:
+    netlist: str
+    params: dict[str, float] = field(default_factory=dict)
+    temp_c: float | None = None
+    op_file: str | None = None
+    probe: str | None = None
+    source: str | None = None
+    config: str | None = None  # explicit settings file; None: search from the netlist's folder
+    min_bandwidth: float | None = None
+    fail_on: str | None = None
+    response: bool = True
+
+
+@dataclass
+class ScanRun:
+    request: ScanRequest
+    circuit: Circuit
+    op: OperatingPoint
+    analysis: Analysis
+    lint: LintResult
+    settings: lint_settings.LintSettings
+    network: object = None  # the small-signal network (for plots)
+
+    def response_curve(self, points: int = 200):
+        """(freqs, |H|) from the source to the probe around the figures of interest, or (None, None)."""
+        from tauscan.analysis.poles import response_curve
+
+        a = self.analysis
+        ss = self.network
+        if ss is None or a.source is None or a.probe is None:
+            return None, None
+        marks = [f for f in (a.octc_hz, a.dominant_pole_hz, a.f3db_hz) if f]
+        if not marks:
+            return None, None
+        b = ss.network.ac_vector(self.circuit.element(a.source))[1:]
+        return response_curve(ss.g, ss.c, b, ss.row(a.probe), min(marks) / 1e3, max(marks) * 1e3, points)
+
+
+class _NoProgress:
+    @contextmanager
+    def stage(self, _name: str):
+        yield
+
+
+def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
+    path = request.config or lint_settings.find_config(request.netlist)
+    base = lint_settings.load(path) if path else lint_settings.LintSettings()
+    return base.merged(min_bandwidth=request.min_bandwidth, fail_on=request.fail_on,
+                       probe=request.probe, source=request.source)
+
+
+def scan(request: ScanRequest, progress=None) -> ScanRun:
+    progress = progress or _NoProgress()
+    settings = settings_for(request)
+    with progress.stage(f"reading {os.path.basename(request.netlist)}"):
+        circuit = read_netlist(request.netlist, request.params)
+    with progress.stage("operating point"):
+        op = operating_point(circuit, request.temp_c, request.op_file)
+    with progress.stage("small-signal analysis"):
+        ss = linearize(op)
+        analysis = analyze_network(ss, op, settings.probe, settings.source,
+                                   AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response))
+        analysis.warnings.extend(circuit.warnings)
+    with progress.stage("lint rules"):
+        signal = signal_nodes(analysis, ss, op)
+        lint = run_rules(analysis, circuit, op, settings, settings.probe is not None, signal)
+    return ScanRun(request, circuit, op, analysis, lint, settings, ss)

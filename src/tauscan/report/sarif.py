@@ -1,0 +1,65 @@
+"""Findings as SARIF 2.1.0 (OASIS Static Analysis Results Interchange Format), so that
+code-scanning services can show them on the netlist's lines."""
+
+from __future__ import annotations
+
+import json
+import os
+
+from tauscan import __version__
+from tauscan.lint.rules import RULES
+
+SCHEMA = "https://json.schemastore.org/sarif-2.1.0.json"
+LEVEL = {"error": "error", "warning": "warning", "note": "note"}
+
+
+def _uri(path: str) -> str:
+    try:
+        rel = os.path.relpath(path)
+    except ValueError:
+        rel = path
+    if rel.startswith(".."):
+        rel = os.path.abspath(path)
+    return rel.replace(os.sep, "/")
+
+
+def document(runs: list) -> dict:
+    rule_ids = list(RULES)
+    rules = [{
+        "id": r.id,
+        "name": r.summary.title().replace(" ", ""),
+        "shortDescription": {"text": r.summary},
+        "fullDescription": {"text": r.description},
+        "defaultConfiguration": {"level": LEVEL[r.severity]},
+    } for r in RULES.values()]
+    results = []
+    artifacts: dict[str, int] = {}
+    for run in runs:
+        for f in run.lint.findings:
+            uri = _uri(f.file)
+            artifacts.setdefault(uri, len(artifacts))
+            location = {"artifactLocation": {"uri": uri, "index": artifacts[uri]}}
+            if f.line:
+                location["region"] = {"startLine": int(f.line)}
+            results.append({
+                "ruleId": f.rule,
+                "ruleIndex": rule_ids.index(f.rule),
+                "level": LEVEL[f.severity],
+                "message": {"text": f.message},
+                "locations": [{"physicalLocation": location, "logicalLocations": [{"name": f.subject}]}],
+                "properties": {k: v for k, v in f.numbers.items() if isinstance(v, (int, float, str))},
+            })
+    return {
+        "$schema": SCHEMA,
+        "version": "2.1.0",
+        "runs": [{
+            "tool": {"driver": {"name": "tauscan", "version": __version__, "rules": rules}},
+            "artifacts": [{"location": {"uri": uri}} for uri in artifacts],
+            "results": results,
+            "invocations": [{"executionSuccessful": True}],
+        }],
+    }
+
+
+def render(runs: list) -> str:
+    return json.dumps(document(runs), indent=2) + "\n"

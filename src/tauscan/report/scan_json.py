@@ -1,0 +1,29 @@
+"""The scan report as JSON (the contract in the README), and the records other formats share."""
+
+from __future__ import annotations
+
+import json
+
+
+def scan_record(run) -> dict:
+    a = run.analysis
+    data = a.to_json()
+    data["netlist"] = run.request.netlist
+    data["title"] = a.title
+    data["findings"] = [f.to_json() for f in run.lint.findings]
+    data["waivers"] = [{"capacitor": w.capacitor, "reason": w.reason, "source": w.source} for w in run.lint.waivers]
+    data["warnings"] = list(a.warnings)
+    data["methods"] = dict(a.methods)
+    ordered = {k: data[k] for k in ("netlist", "title", "source", "probe", "summary", "capacitors", "nodes", "poles",
+                                    "findings", "waivers", "warnings", "methods")}
+    return ordered
+
+
+def render(runs: list, exit_code: int | None = None) -> str:
+    if len(runs) == 1 and exit_code is None:
+        return json.dumps(scan_record(runs[0]), indent=2) + "\n"
+    data = {"runs": [scan_record(r) for r in runs]}
+    data["findings"] = [f for r in data["runs"] for f in r["findings"]]
+    if exit_code is not None:
+        data["exit_code"] = exit_code
+    return json.dumps(data, indent=2) + "\n"

@@ -103,7 +103,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
             warnings.append("no AC source: the -3 dB frequency was not computed")
     else:
         b = net.ac_vector(src)[1:]
-        probe_name, probe_row = _probe(ss, lu, b, probe, src)
+        probe_name, probe_row = _probe(ss, lu, b, probe, src, octc)
         if probe_row is not None and settings.response:
             resp = poles_mod.Response(ss.g, ss.c, b, probe_row)
             dc_gain = abs(resp(0.0))
@@ -158,7 +158,13 @@ def _inductor_time_constants(ss: SmallSignalNetwork, lu) -> float:
     return float(sum(-e.value * wk for e, wk in zip(inductors, w)))
 
 
-def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: Element):
+def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: Element, octc: float | None = None):
+    """The named probe, or the node with the largest gain from the source.
+
+    The gain is taken as the largest |H| at DC and at a few frequencies up to a
+    thousand times the estimate, so that AC-coupled stages are judged in their
+    pass band, not at DC.
+    """
     net = ss.network
     if probe is not None:
         key = probe.lower()
@@ -167,16 +173,16 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
         if key in ss.ac_ground:
             raise SettingsError(f"--probe {probe!r} is an AC ground (tied to ground through voltage sources)")
         return key, ss.row(key)
-    x = lu.solve(b.real) if not np.iscomplexobj(b) or not np.any(b.imag) else None
-    if x is None:
-        return None, None
     n = ss.n_nodes
-    mags = np.abs(x[:n])
-    for name in ss.ac_ground:
+    mags = np.abs(lu.solve(b.real)[:n]) if not np.any(b.imag) else np.zeros(n)
+    if octc:
+        solver = poles_mod.ComplexSolver(ss.g, ss.c)
+        for f in np.geomspace(octc / 10, octc * 1e3, 4):
+            x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
+            mags = np.maximum(mags, np.abs(x[:n]))
+    for name in list(ss.ac_ground) + list(net.internal):
         if name in net.index and net.index[name] > 0:
             mags[net.index[name] - 1] = -1
-    for name in net.internal:
-        mags[net.index[name] - 1] = -1
     if not np.any(mags > 0):
         return None, None
     row = int(np.argmax(mags))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rich import box
 from rich.console import Group
 from rich.table import Table
 from rich.text import Text
@@ -12,7 +13,7 @@ from tauscan.units import eng
 
 
 def renderables(runs: list, code: int) -> Group:
-    overview = Table(title="Netlists", title_justify="left", header_style="bold")
+    overview = Table(title="Netlists", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     for col in ("netlist", "estimate", "-3 dB", "errors", "warnings", "notes"):
         overview.add_column(col, justify="left" if col == "netlist" else "right")
     for run in runs:
@@ -23,7 +24,7 @@ def renderables(runs: list, code: int) -> Group:
     parts = [overview]
     findings = [f for run in runs for f in run.lint.findings]
     if findings:
-        t = Table(title="Findings", title_justify="left", header_style="bold")
+        t = Table(title="Findings", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
         for col in ("severity", "rule", "where", "message"):
             t.add_column(col, overflow="fold")
         for f in findings:
@@ -31,7 +32,7 @@ def renderables(runs: list, code: int) -> Group:
         parts.append(t)
     waivers = [w for run in runs for w in run.lint.waivers]
     if waivers:
-        t = Table(title="Waivers in use", title_justify="left", header_style="bold")
+        t = Table(title="Waivers in use", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
         for col in ("capacitor", "reason", "from"):
             t.add_column(col, overflow="fold")
         for w in waivers:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rich import box
 from rich.console import Group
 from rich.table import Table
 from rich.text import Text
@@ -15,7 +16,10 @@ SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "blue"}
 
 
 def _pct(x: float | None) -> str:
-    return "-" if x is None else f"{100 * x:.1f}%"
+    if x is None:
+        return "-"
+    text = f"{100 * x:.1f}%"
+    return "0.0%" if text == "-0.0%" else text
 
 
 def _num(x: float | None, digits: int = 3) -> str:
@@ -53,7 +57,7 @@ def _trust(a) -> str:
 def capacitor_table(run, top: int | None) -> Table:
     a = run.analysis
     caps = a.capacitors[:top] if top else a.capacitors
-    t = Table(title=f"Capacitors by time constant ({len(caps)} of {len(a.capacitors)})", title_justify="left", header_style="bold")
+    t = Table(title=f"Capacitors by time constant ({len(caps)} of {len(a.capacitors)})", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     for name, justify in (("#", "right"), ("capacitor", "left"), ("input -> other", "left"), ("C", "right"),
                           ("gain", "right"), ("class", "left"), ("Miller x", "right"), ("R seen", "right"),
                           ("tau", "right"), ("share", "right"), ("pole share", "right"), ("f w/o it", "right"),
@@ -73,7 +77,7 @@ def capacitor_table(run, top: int | None) -> Table:
 def node_table(run, top: int | None) -> Table:
     a = run.analysis
     nodes = a.nodes[:top] if top else a.nodes
-    t = Table(title=f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", title_justify="left", header_style="bold")
+    t = Table(title=f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     for name in ("node", "tau", "share", "Miller share", ""):
         t.add_column(name, justify="left" if name in ("node", "") else "right")
     for n in nodes:
@@ -85,14 +89,14 @@ def node_table(run, top: int | None) -> Table:
 def findings_block(run) -> list:
     out = []
     if run.lint.findings:
-        t = Table(title="Findings", title_justify="left", header_style="bold")
+        t = Table(title="Findings", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
         for col in ("severity", "rule", "where", "message"):
             t.add_column(col, overflow="fold")
         for f in run.lint.findings:
             t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f"{f.file}:{f.line or ''}", f.message)
         out.append(t)
     if run.lint.waivers:
-        t = Table(title="Waivers in use", title_justify="left", header_style="bold")
+        t = Table(title="Waivers in use", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
         for col in ("capacitor", "reason", "from"):
             t.add_column(col, overflow="fold")
         for w in run.lint.waivers:

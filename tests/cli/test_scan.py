@@ -1,0 +1,98 @@
+"""`tauscan scan` through the real entry point: formats, the JSON contract, files."""
+
+import csv
+import io
+import json
+import os
+from pathlib import Path
+
+import pytest
+
+from tests.conftest import SAMPLES, run_cli
+
+SENSOR = str(SAMPLES / "sensor_readout.sp")
+
+CAP_FIELDS = {"name", "node_in", "node_out", "farads", "class", "gain", "factor_in", "factor_out", "ohms", "tau_s",
+              "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded"}
+
+
+def test_json_contract():
+    result = run_cli("scan", SENSOR, "--format", "json", "--probe", "samp")
+    assert result.returncode == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert {"netlist", "source", "probe", "summary", "capacitors", "nodes", "poles", "findings", "warnings"} <= set(data)
+    assert data["probe"] == "samp" and data["source"] == "vin"
+    assert set(data["summary"]) >= {"sum_tau_s", "octc_hz", "dominant_pole_hz", "f3db_hz"}
+    caps = data["capacitors"]
+    assert all(CAP_FIELDS <= set(c) for c in caps)
+    taus = [c["tau_s"] for c in caps]
+    assert taus == sorted(taus, reverse=True)
+    for c in caps:
+        assert c["name"] == c["name"].lower()
+        if c["class"] == "grounded":
+            assert c["node_out"] == "0" and c["gain"] is None and c["factor_out"] is None
+        else:
+            assert isinstance(c["gain"], float)
+    assert {"node", "tau_s", "share", "miller_share", "miller_dominated"} <= set(data["nodes"][0])
+    assert {"hz", "real", "imag"} == set(data["poles"][0])
+    # shares add up to 1 (METHOD section 4)
+    assert sum(c["share"] for c in caps) == pytest.approx(1.0, rel=1e-9)
+
+
+def test_csv_columns():
+    result = run_cli("scan", SENSOR, "--format", "csv")
+    assert result.returncode == 0
+    rows = list(csv.DictReader(io.StringIO(result.stdout)))
+    assert CAP_FIELDS <= set(rows[0])
+    assert len(rows) == len(json.loads(run_cli("scan", SENSOR, "--format", "json").stdout)["capacitors"])
+
+
+def test_markdown_and_top():
+    result = run_cli("scan", SENSOR, "--format", "markdown", "--top", "3")
+    assert result.returncode == 0
+    assert "### Capacitors (3 of 12)" in result.stdout
+    assert "| # | capacitor |" in result.stdout
+    assert "never replace simulation" in result.stdout
+
+
+def test_output_file_plot_and_the_netlist_untouched(tmp_path):
+    before = Path(SENSOR).read_bytes()
+    out = tmp_path / "report.json"
+    png = tmp_path / "shares.png"
+    result = run_cli("scan", SENSOR, "-o", str(out), "--format", "json", "--plot", str(png), "--probe", "samp")
+    assert result.returncode == 0, result.stderr
+    assert json.loads(out.read_text())["probe"] == "samp"
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert Path(SENSOR).read_bytes() == before
+    assert not [p for p in os.listdir(tmp_path) if p.startswith(".tauscan-")]
+
+
+def test_refuses_to_overwrite_the_netlist(tmp_path):
+    path = tmp_path / "n.sp"
+    path.write_text(Path(SENSOR).read_text())
+    result = run_cli("scan", str(path), "-o", str(path))
+    assert result.returncode == 2 and "refusing" in result.stderr
+    assert path.read_text() == Path(SENSOR).read_text()
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--probe", "nosuch"], "no such node"),
+        (["--source", "r1"], "no independent voltage or current source"),
+        (["--top", "-1"], "expected 0 or more"),
+        (["--format", "xml"], "invalid choice"),
+        (["--param", "novalue"], "NAME=VALUE"),
+        (["--plot", "x.gif"], ".png or .svg"),
+    ],
+)
+def test_bad_options_exit_2_with_one_line(args, message, tmp_path):
+    result = run_cli("scan", SENSOR, *args, cwd=str(tmp_path))
+    assert result.returncode == 2
+    assert message in result.stderr and "Traceback" not in result.stderr
+
+
+def test_table_to_a_pipe_is_plain_text():
+    result = run_cli("scan", SENSOR)
+    assert result.returncode == 0
+    assert "Capacitors by time constant" in result.stdout and "\x1b[" not in result.stdout

@@ -34,3 +34,10 @@ def run_cli(*args: str, cwd: str | None = None, timeout: float = 120) -> subproc
         cwd=cwd,
         timeout=timeout,
     )
+
+
+def examples(n: int) -> int:
+    """Hypothesis example count: ``n`` in CI, times TAUSCAN_FUZZ_FACTOR for a long run."""
+    import os
+
+    return int(n * float(os.environ.get("TAUSCAN_FUZZ_FACTOR", "1")))

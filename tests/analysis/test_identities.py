@@ -19,6 +19,8 @@ from numpy.testing import assert_allclose
 from tauscan import api
 from tauscan.linear import linearize
 
+from tests.conftest import examples
+
 GMIN = 1e-12
 
 
@@ -96,7 +98,7 @@ def _tolerant(result, trace):
     return max(1e-9 * abs(trace), 1e-9 * sum(abs(c.tau_s) for c in result.capacitors), 1e-24)
 
 
-@settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(80), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(networks())
 def test_sum_tau_is_the_trace_and_minus_sum_of_inverse_poles(write, case):
     nodes, items = case
@@ -117,7 +119,7 @@ def test_sum_tau_is_the_trace_and_minus_sum_of_inverse_poles(write, case):
     assert_allclose(sum(n.tau_s for n in result.nodes), sum(cp.tau_s for cp in result.capacitors), rtol=1e-9, atol=1e-24)
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(60), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(networks(with_vcvs=True))
 def test_identities_with_vcvs_on_tauscan_matrices(write, case):
     nodes, items = case
@@ -135,7 +137,7 @@ def test_identities_with_vcvs_on_tauscan_matrices(write, case):
         assert_allclose(float(np.real(-np.sum(1 / np.array(result.poles)))), result.sum_tau_s, rtol=1e-6, atol=_tolerant(result, trace))
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(60), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(networks())
 def test_dominant_pole_shares_add_up_to_one(write, case):
     nodes, items = case

@@ -17,6 +17,8 @@ from tauscan.op import solve_dc
 from tauscan.op.solver import DCSolver
 from tauscan.reader import read_netlist
 
+from tests.conftest import examples
+
 GMIN = 1e-12  # METHOD: every node has GMIN to ground; the reference equations include it
 
 
@@ -138,7 +140,7 @@ def random_circuits(draw):
     return "\n".join(lines) + "\n"
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(60), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(random_circuits())
 def test_kcl_holds_at_every_node(write, text):
     op = solve_dc(read_netlist(write(text)))

@@ -6,6 +6,8 @@ from hypothesis import strategies as st
 from tauscan.reader.fields import fast_fields, grammar_fields
 from tauscan.reader.lines import Card
 
+from tests.conftest import examples
+
 LINES = [
     "R1 a b 1k",
     "M1 d g s b nch w=1u l=0.18u",
@@ -50,7 +52,7 @@ def test_listed_lines_take_the_fast_path_and_agree():
         _agree(text)
 
 
-@settings(max_examples=400, deadline=None)
+@settings(max_examples=examples(400), deadline=None)
 @given(element_lines())
 def test_fast_path_agrees_with_the_grammar(text):
     _agree(text)

@@ -11,6 +11,8 @@ from tauscan.errors import TauscanError
 from tauscan.reader import read_netlist
 from tauscan.report.expand_view import render_json
 
+from tests.conftest import examples
+
 # SPICE2 scale factors (Nagel 1975, recalled from memory) as decimal exponents
 SUFFIX = {"": 0, "t": 12, "g": 9, "meg": 6, "k": 3, "m": -3, "u": -6, "n": -9, "p": -12, "f": -15}
 
@@ -51,7 +53,7 @@ def netlists(draw):
     return "\n".join(lines) + "\n", expected
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(150), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(netlists())
 def test_generated_netlists_round_trip_through_expand(write, case):
     text, expected = case
@@ -63,7 +65,7 @@ def test_generated_netlists_round_trip_through_expand(write, case):
         assert got[name] == value, (name, text)
 
 
-@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(300), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.binary(max_size=400))
 def test_random_bytes_raise_only_our_errors(write, tmp_path, data):
     path = tmp_path / "random.sp"
@@ -74,7 +76,7 @@ def test_random_bytes_raise_only_our_errors(write, tmp_path, data):
         pass
 
 
-@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=examples(300), deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.text(alphabet=st.sampled_from(list("RCMXQVE .+*=(){}'\"abc01k\n;$ulp-")), max_size=200))
 def test_random_card_text_raises_only_our_errors(tmp_path, text):
     path = tmp_path / "random.sp"

@@ -131,6 +131,7 @@ class Network:
         t = Triplets()
         idx = self.index
         res_a, res_b, res_g = [], [], []
+        rows, cols, vals = [], [], []
         for e in self.circuit.elements:
             k = e.kind
             if k == "r":
@@ -140,30 +141,45 @@ class Network:
             elif k in BRANCH_KINDS:
                 br = self.branch_of[e.name]
                 p, n = idx[e.nodes[0]], idx[e.nodes[1]]
-                t.add([p, n, br, br], [br, br, p, n], [1.0, -1.0, 1.0, -1.0])
+                rows += [p, n, br, br]
+                cols += [br, br, p, n]
+                vals += [1.0, -1.0, 1.0, -1.0]
                 if k == "e":
                     cp, cn = idx[e.nodes[2]], idx[e.nodes[3]]
-                    t.add([br, br], [cp, cn], [-e.value, e.value])
+                    rows += [br, br]
+                    cols += [cp, cn]
+                    vals += [-e.value, e.value]
                 elif k == "h":
-                    t.add([br], [self.controlling_branch(e)], [-e.value])
+                    rows.append(br)
+                    cols.append(self.controlling_branch(e))
+                    vals.append(-e.value)
             elif k == "g":
                 p, n, cp, cn = (idx[x] for x in e.nodes)
-                t.transconductance(p, n, cp, cn, e.value)
+                rows += [p, p, n, n]
+                cols += [cp, cn, cp, cn]
+                vals += [e.value, -e.value, -e.value, e.value]
             elif k == "f":
                 p, n = idx[e.nodes[0]], idx[e.nodes[1]]
                 kc = self.controlling_branch(e)
-                t.add([p, n], [kc, kc], [e.value, -e.value])
+                rows += [p, n]
+                cols += [kc, kc]
+                vals += [e.value, -e.value]
         if res_a:
             t.conductance(np.array(res_a), np.array(res_b), np.array(res_g))
+        if rows:
+            t.add(np.array(rows), np.array(cols), np.array(vals))
         return t
 
     def linear_c(self) -> Triplets:
         """Stamps of explicit capacitors, inductors (``-L`` in their branch rows) and couplings."""
         t = Triplets()
         idx = self.index
+        ca, cb, cv = [], [], []
         for e in self.circuit.elements:
             if e.kind == "c" and e.value:
-                t.conductance(idx[e.nodes[0]], idx[e.nodes[1]], e.value * e.params.get("m", 1.0))
+                ca.append(idx[e.nodes[0]])
+                cb.append(idx[e.nodes[1]])
+                cv.append(e.value * e.params.get("m", 1.0))
             elif e.kind == "l":
                 br = self.branch_of[e.name]
                 t.add([br], [br], [-e.value])
@@ -172,6 +188,8 @@ class Network:
                 mutual = e.value * np.sqrt(l1.value * l2.value)
                 b1, b2 = self.branch_of[l1.name], self.branch_of[l2.name]
                 t.add([b1, b2], [b2, b1], [-mutual, -mutual])
+        if cv:
+            t.conductance(np.array(ca), np.array(cb), np.array(cv))
         return t
 
     def _inductor(self, k: Element, name: str) -> Element:

@@ -61,3 +61,18 @@ def test_saturation_current_temperature_scaling():
     hot = scale_saturation_current(1e-16, 32.0, 27.0, 1.11, 3.0, 1.0)
     assert 1.8 < hot / 1e-16 < 2.4
     assert scale_saturation_current(1e-16, 27.0, 27.0, 1.11, 3.0, 1.0) == 1e-16
+
+
+def test_series_resistances_of_diode_and_mosfet(write):
+    # Ohm's law across each series resistance: the internal node sits I*R away (plus GMIN current)
+    c = read_netlist(write("rs\nV1 a 0 5\nR1 a k 1k\nD1 k 0 dm\n.model dm d (is=1e-14 rs=50)\n"
+                           "Vdd vdd 0 1.8\nRd vdd d 5k\nM1 d vdd 0 0 mn w=10u l=1u\n.model mn nmos (vto=0.5 kp=100u rd=200 rs=100)\n"))
+    op = solve_dc(c)
+    d = op.device("d1")
+    vk, vai = op.voltage("k"), op.x[op.network.node("d1#a")]
+    assert_allclose(vk - vai, (d.current + 1e-12 * vai) * 50, rtol=1e-6)
+    m = op.device("m1")
+    vd, vdi = op.voltage("d"), op.x[op.network.node("m1#d")]
+    vsi = op.x[op.network.node("m1#s")]
+    assert_allclose(vd - vdi, (m.current + 1e-12 * vdi) * 200, rtol=1e-6)
+    assert_allclose(vsi, (m.current - 1e-12 * vsi) * 100, rtol=1e-5)

@@ -49,3 +49,20 @@ class DeviceOP:
         from tauscan.devices import stamps
 
         return stamps.build(self)
+
+
+def series_stamps(params: dict, ext, nodes, parts: tuple[tuple[str, int], ...]):
+    """Conductances of series resistances between external and internal terminals.
+
+    ``parts`` pairs a resistance column of ``params`` (ohms per device) with a terminal
+    index; devices with zero resistance have no internal node and get no stamp.
+    """
+    from tauscan.network import Triplets
+
+    t = Triplets()
+    for col, term in parts:
+        r = params[col]
+        has = r > 0
+        if has.any():
+            t.conductance(ext[has, term], nodes[has, term], 1.0 / r[has])
+    return t

@@ -23,7 +23,7 @@ import numpy as np
 
 from tauscan.circuit import GROUND, Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP
+from tauscan.devices.base import DeviceOP, series_stamps
 from tauscan.network import Network, Triplets
 
 C, B, E = 0, 1, 2
@@ -82,13 +82,7 @@ class BjtGroup:
         self.vcrit = physics.critical_voltage(cols["is"], self.vt)
 
     def series(self) -> Triplets:
-        t = Triplets()
-        for col, term in (("rc", C), ("rb", B), ("re", E)):
-            r = self.p[col]
-            has = r > 0
-            if has.any():
-                t.conductance(self.ext[has, term], self.nodes[has, term], 1.0 / r[has])
-        return t
+        return series_stamps(self.p, self.ext, self.nodes, (("rc", C), ("rb", B), ("re", E)))
 
     def initial_state(self) -> dict[str, np.ndarray]:
         """SPICE's junction initialization: VBE = Vcrit, VBC = 0 (normalized)."""

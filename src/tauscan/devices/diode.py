@@ -11,7 +11,7 @@ import numpy as np
 
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP
+from tauscan.devices.base import DeviceOP, series_stamps
 from tauscan.network import Network, Triplets
 
 A, K = 0, 1
@@ -56,11 +56,7 @@ class DiodeGroup:
         self.vcrit = physics.critical_voltage(cols["is"], self.nvt)
 
     def series(self) -> Triplets:
-        t = Triplets()
-        has = self.p["rs"] > 0
-        if has.any():
-            t.conductance(self.ext[has, A], self.nodes[has, A], 1.0 / self.p["rs"][has])
-        return t
+        return series_stamps(self.p, self.ext, self.nodes, (("rs", A),))
 
     def initial_state(self):
         return {"vd": self.vcrit.copy()}

@@ -17,7 +17,7 @@ import numpy as np
 
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP
+from tauscan.devices.base import DeviceOP, series_stamps
 from tauscan.errors import CircuitError
 from tauscan.network import Network, Triplets
 
@@ -101,13 +101,7 @@ class MosGroup:
 
     # -- DC -------------------------------------------------------------------------
     def series(self) -> Triplets:
-        t = Triplets()
-        for col, term in (("rd", D), ("rs", S)):
-            r = self.p[col]
-            has = r > 0
-            if has.any():
-                t.conductance(self.ext[has, term], self.nodes[has, term], 1.0 / r[has])
-        return t
+        return series_stamps(self.p, self.ext, self.nodes, (("rd", D), ("rs", S)))
 
     def initial_state(self) -> dict[str, np.ndarray]:
         """SPICE's junction initialization: VDS = 0.1, VGS = VTO, VBS = -1 (normalized)."""

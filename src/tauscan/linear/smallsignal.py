@@ -73,18 +73,33 @@ def ac_grounds(circuit: Circuit) -> set[str]:
 
 
 def _device_stamps(op: OperatingPoint, g: Triplets) -> list[CapacitorRecord]:
+    """Stamp every device's conductances and transconductances into ``g`` (gathered in
+    plain lists and added as one block: per-device numpy calls would dominate large
+    circuits) and return its capacitors."""
     idx = op.network.index
     caps: list[CapacitorRecord] = []
+    ga, gb, gv = [], [], []
+    tp, tn, tcp, tcn, tv = [], [], [], [], []
     for dev in op.devices:
         ss = dev.small_signal()
         for _part, a, b, value in ss.conductances:
             if value:
-                g.conductance(idx[a], idx[b], value)
+                ga.append(idx[a])
+                gb.append(idx[b])
+                gv.append(value)
         for _part, p, n, cp, cn, value in ss.vccs:
             if value:
-                g.transconductance(idx[p], idx[n], idx[cp], idx[cn], value)
+                tp.append(idx[p])
+                tn.append(idx[n])
+                tcp.append(idx[cp])
+                tcn.append(idx[cn])
+                tv.append(value)
         for part, a, b, value in ss.capacitors:
             caps.append(CapacitorRecord(f"{dev.name}:{part}", a, b, value, dev.file, dev.line, dev.name))
+    if gv:
+        g.conductance(np.array(ga), np.array(gb), np.array(gv))
+    if tv:
+        g.transconductance(np.array(tp), np.array(tn), np.array(tcp), np.array(tcn), np.array(tv))
     return caps
 
 
@@ -97,8 +112,9 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
     device_caps = _device_stamps(op, g)
     g.extend(net.gmin_triplets(gmin))
     idx = net.index
-    for cap in device_caps:
-        c.conductance(idx[cap.a], idx[cap.b], cap.farads)
+    if device_caps:
+        c.conductance(np.array([idx[cap.a] for cap in device_caps]), np.array([idx[cap.b] for cap in device_caps]),
+                      np.array([cap.farads for cap in device_caps]))
     explicit = [_explicit(e) for e in circuit.elements if e.kind == "c"]
     return SmallSignalNetwork(
         circuit=circuit,

@@ -27,6 +27,9 @@ from scipy.optimize import brentq
 DENSE_LIMIT = 800
 #: Number of dominant poles sought in a large circuit.
 SPARSE_POLES = 8
+#: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
+#: ncv sparse solves, so these bound the time spent on clustered poles (many equal stages).
+ARPACK_RESTARTS = (40, 8)
 #: An eigenvalue of G^-1 C smaller than this fraction of the largest is an infinite pole.
 LAMBDA_FLOOR = 1e-13
 
@@ -78,14 +81,16 @@ def _sparse(g, c, lu) -> Poles:
     op = spla.LinearOperator((n, n), matvec=lambda v: lu.solve(np.asarray(c @ v)), dtype=float)
     notes = []
     found = []
-    for k, ncv, maxiter in ((1, min(n - 1, 20), 300), (min(SPARSE_POLES, n - 2), min(n - 1, 40), 25)):
+    for k, ncv, maxiter in ((1, min(n - 1, 24), ARPACK_RESTARTS[0]), (min(SPARSE_POLES, n - 2), min(n - 1, 32), ARPACK_RESTARTS[1])):
         try:
-            lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-10, maxiter=maxiter)
+            lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-9, maxiter=maxiter)
         except spla.ArpackNoConvergence as exc:
             lam = exc.eigenvalues
             if k > 1:
                 notes.append(f"{len(lam)} of the {k} most dominant poles converged (the others are clustered); "
                              "the list of poles is not complete")
+            elif not len(lam):
+                notes.append("the sparse eigen-solver did not find the dominant pole within its iteration budget")
         found.extend(complex(x) for x in lam if abs(x) > 0)
     lam = _unique(np.array(found, dtype=complex))
     poles = -1.0 / lam

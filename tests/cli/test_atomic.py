@@ -50,3 +50,13 @@ def test_write_creates_the_file(tmp_path):
     target = tmp_path / "a.txt"
     output.write_text("hello", str(target))
     assert target.read_text() == "hello"
+
+
+def test_report_permissions_follow_the_umask(tmp_path):
+    target = tmp_path / "b.txt"
+    old = os.umask(0o022)
+    try:
+        output.write_text("x", str(target))
+    finally:
+        os.umask(old)
+    assert (target.stat().st_mode & 0o777) == 0o644

@@ -41,6 +41,15 @@ def write_bytes(data: bytes, path: str, *, protect: tuple[str, ...] = ()) -> Non
     except OSError as exc:
         raise SettingsError(f"cannot write {path}: {exc.strerror}") from None
     try:
+        # mkstemp makes the file private (0600); a report gets the usual permissions,
+        # or those of the report it replaces
+        if os.path.exists(target):
+            mode = os.stat(target).st_mode & 0o777
+        else:
+            umask = os.umask(0)
+            os.umask(umask)
+            mode = 0o666 & ~umask
+        os.chmod(tmp, mode)
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
             handle.flush()

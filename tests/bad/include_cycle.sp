@@ -1,0 +1,3 @@
+* expect: 2 include cycle
+.include 'include_cycle.sp'
+R1 a 0 1

@@ -1,0 +1,2 @@
+* expect: 2 file not found
+.include 'does/not/exist.sp'

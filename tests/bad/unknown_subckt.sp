@@ -1,0 +1,2 @@
+* expect: 2 unknown subcircuit
+X1 a nosuch

@@ -24,6 +24,10 @@ from tauscan.linear.smallsignal import SmallSignalNetwork, linearize
 from tauscan.op.result import OperatingPoint
 
 
+#: A node that sees more than this resistance to ground is held by GMIN or leakage only.
+GMIN_HELD_OHMS = 1e10
+
+
 @dataclass(frozen=True)
 class AnalysisSettings:
     #: a node is Miller-dominated when its Miller part is at least this share of its time constant
@@ -80,6 +84,11 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     m = len(keep)
     zaa, zbb, zab, zba = z[:m], z[m : 2 * m], z[2 * m : 3 * m], z[3 * m :]
     table = tc.capacitor_table(farads, a_rows < 0, b_rows < 0, zaa, zbb, zab, zba)
+    held = sorted({r.a for r, z in zip(keep, zaa) if z > GMIN_HELD_OHMS} | {r.b for r, z in zip(keep, zbb) if z > GMIN_HELD_OHMS})
+    if held:
+        warnings.append(f"nodes held almost only by GMIN or junction leakage (over {GMIN_HELD_OHMS:.0e} ohm to ground): "
+                        + ", ".join(held[:8]) + (" ..." if len(held) > 8 else "")
+                        + "; their time constants are not meaningful")
     inductor_tau = _inductor_time_constants(ss, lu)
     sum_tau = float(np.sum(table.tau)) + inductor_tau
     octc = 1.0 / (2 * math.pi * sum_tau) if sum_tau > 0 else None
@@ -108,6 +117,9 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
             resp = poles_mod.Response(ss.g, ss.c, b, probe_row)
             dc_gain = abs(resp(0.0))
             f3, note = poles_mod.f3db(resp, found, octc)
+            if resp.ill_conditioned:
+                warnings.append("the small-signal system is ill-conditioned (a node held almost only by GMIN or "
+                                "junction leakage?); the -3 dB figure may be inaccurate")
     # -- records ---------------------------------------------------------------------
     caps = []
     for k, r in enumerate(keep):

@@ -15,6 +15,7 @@ with right and left eigenvectors x, y of the pole p.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -193,6 +194,7 @@ class Response:
 
     def __init__(self, g: sp.csc_matrix, c: sp.csc_matrix, b: np.ndarray, row: int) -> None:
         self.b, self.row = b.astype(complex), row
+        self.ill_conditioned = False
         self.dense = g.shape[0] <= DENSE_LIMIT
         if self.dense:
             self._gd, self._cd = g.toarray(), c.toarray()
@@ -202,7 +204,11 @@ class Response:
     def __call__(self, f: float) -> complex:
         s = 2j * math.pi * f
         if self.dense:
-            x = la.solve(self._gd + s * self._cd, self.b)
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always", la.LinAlgWarning)
+                x = la.solve(self._gd + s * self._cd, self.b)
+            if caught:
+                self.ill_conditioned = True
         else:
             x = self._solver.solve(self._solver.factor(s), self.b)
         return complex(x[self.row])

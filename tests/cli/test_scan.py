@@ -96,3 +96,4 @@ def test_table_to_a_pipe_is_plain_text():
     result = run_cli("scan", SENSOR)
     assert result.returncode == 0
     assert "Capacitors by time constant" in result.stdout and "\x1b[" not in result.stdout
+    assert result.stderr == ""  # progress is shown only when stderr is a terminal

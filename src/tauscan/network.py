@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 
-from tauscan.circuit import GROUND, Circuit, Element
+from tauscan.circuit import Circuit, Element
 from tauscan.errors import CircuitError
 
 #: Conductance from every node to ground that keeps G solvable when a node has no
@@ -234,11 +234,4 @@ class Network:
         t.add(nodes, nodes, np.full(nodes.shape, g))
         return t
 
-    def name_of(self, index: int) -> str:
-        if index < self.n_nodes:
-            return self.nodes[index]
-        return "i(" + self._branch_elements[index - self.n_nodes].name + ")"
 
-
-def is_ground(name: str) -> bool:
-    return name == GROUND

@@ -58,10 +58,6 @@ def _parse_uncached(text: str) -> float | None:
     return float(f"{digits}e{int(exponent or 0) + shift}")
 
 
-def is_finite(value: float) -> bool:
-    return math.isfinite(value)
-
-
 _PREFIXES = [
     (1e12, "T"),
     (1e9, "G"),

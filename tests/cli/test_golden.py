@@ -2,7 +2,6 @@
 of layout with TAUSCAN_REGENERATE=1 and review the difference."""
 
 import os
-from pathlib import Path
 
 from tauscan.pipeline import ScanRequest, scan
 from tauscan.report import scan_table

@@ -6,7 +6,7 @@ Plain records with a JSON form and pandas views for notebooks and scripts.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 
 
 def _finite(x: float | None) -> float | None:
@@ -167,4 +167,4 @@ CAPACITOR_COLUMNS = [
 ]
 NODE_COLUMNS = ["node", "tau_s", "share", "miller_share", "miller_dominated"]
 
-__all__ = ["Analysis", "CapacitorResult", "NodeResult", "CAPACITOR_COLUMNS", "NODE_COLUMNS", "asdict"]
+__all__ = ["Analysis", "CapacitorResult", "NodeResult", "CAPACITOR_COLUMNS", "NODE_COLUMNS"]

@@ -57,6 +57,37 @@ _MOS_MAP = [
 ]
 
 
+#: parameters that must be strictly positive, per family (their formulas divide by them)
+_POSITIVE = {
+    "mos": ("phi", "pb", "uo"),
+    "bjt": ("is", "bf", "br", "nf", "nr", "ne", "nc", "vje", "vjc", "vjs"),
+    "diode": ("is", "n", "vj"),
+}
+_NON_NEGATIVE = ("mj", "mjsw", "mje", "mjc", "mjs", "m", "tf", "tr", "tt", "rd", "rs", "rb", "re", "rc",
+                 "cgso", "cgdo", "cgbo", "cj", "cjsw", "cje", "cjc", "cjs", "cjo", "ise", "isc", "ld", "js", "xcjc")
+
+
+def _validate(model: Model, params: dict, family: str) -> dict:
+    for key in _POSITIVE[family]:
+        value = params.get(key)
+        if value is not None and not value > 0:
+            raise CircuitError(f"model {model.name!r}: {key.upper()} must be positive, not {value:g}", model.file, model.line)
+    for key in _NON_NEGATIVE:
+        value = params.get(key)
+        if isinstance(value, float) and value < 0:
+            raise CircuitError(f"model {model.name!r}: {key.upper()} must not be negative ({value:g})", model.file, model.line)
+    fc = params.get("fc")
+    if fc is not None and not 0 <= fc < 1:
+        raise CircuitError(f"model {model.name!r}: FC must be in [0, 1), not {fc:g}", model.file, model.line)
+    tox = params.get("tox")
+    if tox is not None and not tox > 0:
+        raise CircuitError(f"model {model.name!r}: TOX must be positive, not {tox:g}", model.file, model.line)
+    xcjc = params.get("xcjc")
+    if xcjc is not None and xcjc > 1:
+        raise CircuitError(f"model {model.name!r}: XCJC must be at most 1, not {xcjc:g}", model.file, model.line)
+    return params
+
+
 def _lookup(model: Model, element: Element, allowed: set[str], what: str) -> None:
     if model.type not in allowed:
         raise CircuitError(
@@ -85,7 +116,7 @@ def mos_parameters(model: Model, element: Element, warnings: list[str]) -> dict:
             text = f"{key}: {note}; pass the operating point with --op for accurate figures"
             if text not in warnings:
                 warnings.append(text)
-    return params
+    return _validate(model, params, "mos")
 
 
 def _map_other_level(model: Model, params: dict, level: int) -> list[str]:
@@ -125,7 +156,7 @@ def bjt_parameters(model: Model, element: Element) -> dict:
     for key in ("vaf", "var", "ikf", "ikr"):
         if params[key] == 0:
             params[key] = INF  # zero means 'not given' in SPICE for these
-    return params
+    return _validate(model, params, "bjt")
 
 
 def diode_parameters(model: Model, element: Element) -> dict:
@@ -133,4 +164,4 @@ def diode_parameters(model: Model, element: Element) -> dict:
     params = merged(DIODE_DEFAULTS, model, DIODE_ALIASES)
     if params["bv"] == 0:
         params["bv"] = INF
-    return params
+    return _validate(model, params, "diode")

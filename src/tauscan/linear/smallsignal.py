@@ -130,6 +130,3 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
 def _explicit(e: Element) -> CapacitorRecord:
     return CapacitorRecord(e.name, e.nodes[0], e.nodes[1], float(e.value) * e.params.get("m", 1.0), e.file, e.line, None, e.comment)
 
-
-def dense(matrix: sp.spmatrix) -> np.ndarray:
-    return matrix.toarray()

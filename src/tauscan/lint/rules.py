@@ -106,9 +106,6 @@ def floating_node(ctx) -> list[Finding]:
     return out
 
 
-_BAD_REGIONS = {"triode", "cutoff", "saturation"}
-
-
 def bias_region(ctx) -> list[Finding]:
     out = []
     for dev in ctx.op.devices:

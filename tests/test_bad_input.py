@@ -96,3 +96,13 @@ def test_no_eval_or_exec_in_the_source():
             if pattern.search(line.split("#", 1)[0]):
                 offenders.append(f"{path}:{number}: {line.strip()}")
     assert offenders == []
+
+
+def test_include_errors_name_the_resolved_path(tmp_path):
+    sub = tmp_path / "blocks"
+    sub.mkdir()
+    (sub / "top.sp").write_text("t\n.include '../models/missing.lib'\nR1 a 0 1\n")
+    result = run_cli("scan", str(sub / "top.sp"), timeout=HANG_GUARD_S)
+    assert result.returncode == 2
+    # resolved relative to the including file, and shown resolved
+    assert str(tmp_path / "models" / "missing.lib") in result.stderr.splitlines()[0]

@@ -190,8 +190,12 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
     if octc:
         solver = poles_mod.ComplexSolver(ss.g, ss.c)
         for f in np.geomspace(octc / 10, octc * 1e3, 4):
-            x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
-            mags = np.maximum(mags, np.abs(x[:n]))
+            try:
+                x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
+            except RuntimeError:  # singular at this frequency: skip it
+                continue
+            if np.all(np.isfinite(x)):
+                mags = np.maximum(mags, np.abs(x[:n]))
     for name in list(ss.ac_ground) + list(net.internal):
         if name in net.index and net.index[name] > 0:
             mags[net.index[name] - 1] = -1

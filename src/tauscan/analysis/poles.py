@@ -99,7 +99,10 @@ def _sparse(g, c, lu) -> Poles:
     poles = _tidy(poles[order])
     right = left = None
     if len(poles):
-        right, left = eigenvectors(g, c, complex(poles[0]))
+        try:
+            right, left = eigenvectors(g, c, complex(poles[0]))
+        except RuntimeError:
+            notes.append("the dominant pole's eigenvectors could not be found; no pole shares")
     return Poles(poles, False, "sparse shift-invert", right, left, notes)
 
 
@@ -203,14 +206,19 @@ class Response:
 
     def __call__(self, f: float) -> complex:
         s = 2j * math.pi * f
-        if self.dense:
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always", la.LinAlgWarning)
-                x = la.solve(self._gd + s * self._cd, self.b)
-            if caught:
-                self.ill_conditioned = True
-        else:
-            x = self._solver.solve(self._solver.factor(s), self.b)
+        try:
+            if self.dense:
+                with warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always", la.LinAlgWarning)
+                    x = la.solve(self._gd + s * self._cd, self.b)
+                if caught:
+                    self.ill_conditioned = True
+            else:
+                x = self._solver.solve(self._solver.factor(s), self.b)
+        except (np.linalg.LinAlgError, RuntimeError):
+            # singular at this frequency (an undamped resonance, or a loop of reactances)
+            self.ill_conditioned = True
+            return complex(math.nan, math.nan)
         return complex(x[self.row])
 
     def dc(self) -> float:
@@ -226,6 +234,8 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     Returns the frequency (Hz, or None) and a note on how it was found.
     """
     h0 = resp.dc()
+    if not math.isfinite(h0):
+        return None, "the response is singular at DC; no -3 dB figure"
     if not resp.dense and h0 > 0:
         return _f3db_stepping(resp, h0, poles, estimate_hz)
     mags = np.abs(poles.values) / (2 * math.pi) if len(poles.values) else np.array([estimate_hz or 1.0])
@@ -235,6 +245,8 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     count = max(8, int(math.ceil(math.log10(hi / lo) * per_decade)))
     freqs = np.geomspace(lo, hi, count)
     values = [abs(resp(f)) for f in freqs]
+    if not math.isfinite(h0) or not all(math.isfinite(v) for v in values):
+        return None, "the response is singular at some frequency; no -3 dB figure"
     note = "|H(0)|/sqrt(2)"
     start = 0
     reference = h0
@@ -251,8 +263,15 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     return None, "no -3 dB point within the searched band"
 
 
-def _refine(resp: Response, target: float, fa: float, fb: float) -> float:
-    root = brentq(lambda lf: abs(resp(math.exp(lf))) - target, math.log(fa), math.log(fb), xtol=1e-9, rtol=1e-10)
+def _refine(resp: Response, target: float, fa: float, fb: float) -> float | None:
+    def gap(lf: float) -> float:
+        return abs(resp(math.exp(lf))) - target
+
+    a, b = math.log(fa), math.log(fb)
+    ga, gb = gap(a), gap(b)
+    if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
+        return None
+    root = brentq(gap, a, b, xtol=1e-9, rtol=1e-10)
     return math.exp(root)
 
 
@@ -269,6 +288,8 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
     while steps < 120:
         f_next = f * 2
         v_next = abs(resp(f_next))
+        if not math.isfinite(v_next):
+            return None, "the response is singular at some frequency; no -3 dB figure"
         if v_next < target:
             return _refine(resp, target, f, f_next), "|H(0)|/sqrt(2), found by stepping up from the dominant pole"
         f, steps = f_next, steps + 1

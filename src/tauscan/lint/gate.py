@@ -47,7 +47,10 @@ def signal_nodes(analysis, ss, op) -> set | None:
     b = ss.network.ac_vector(src)[1:]
     f = (analysis.octc_hz or 1.0) / 10
     solver = ComplexSolver(ss.g, ss.c)
-    x = solver.solve(solver.factor(2j * np.pi * f), b.astype(complex))
+    try:
+        x = solver.solve(solver.factor(2j * np.pi * f), b.astype(complex))
+    except RuntimeError:  # singular at this frequency: treat every device as on the signal path
+        return None
     mags = np.abs(x[: ss.n_nodes])
     top = mags.max(initial=0.0)
     if top == 0:

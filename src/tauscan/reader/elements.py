@@ -75,8 +75,9 @@ _PASSIVE_KEYS = {"r": ("r", "value", "res"), "c": ("c", "value", "cap"), "l": ("
 def passive(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
     """R, C, L: two nodes and a value (positional, or ``r=``/``c=``/``l=``/``value=``)."""
     unit = _PASSIVE_UNIT[letter]
-    _need(pos, 2, card, "the two nodes")
-    values = _params(params, card, frame)
+    if len(pos) < 2 or pos[0][0] != "w" or pos[1][0] != "w":
+        _need(pos, 2, card, "the two nodes")
+    values = _params(params, card, frame) if params else {}
     model = None
     if len(pos) >= 3 and pos[2][0] in ("w", "b", "q"):
         value = frame.value(pos[2], card)
@@ -93,7 +94,8 @@ def passive(letter: str, name: str, pos: list[Field], params: list[Field], card:
         raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", pos[2][2] if len(pos) > 2 else 0)
     if letter == "c" and value < 0:
         raise card.error(NetlistSyntaxError, "negative capacitance", pos[2][2] if len(pos) > 2 else 0)
-    return Element(name, letter, _nodes(pos, 2, frame), value, model, values, card.file, card.line, comment=card.comment)
+    node = frame.node
+    return Element(name, letter, (node(pos[0][1]), node(pos[1][1])), value, model, values, card.file, card.line, None, (), card.comment)
 
 
 def _waveform(kind: str, group: Field, card: Card, frame: Frame) -> Waveform:

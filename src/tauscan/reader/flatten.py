@@ -25,7 +25,7 @@ GROUND_NAMES = frozenset(["0", "gnd", "gnd!"])
 class Frame:
     """One instance being expanded: its definition, name prefix, pins and parameters."""
 
-    __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models")
+    __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models", "_nodes")
 
     def __init__(self, definition: Definition, prefix: str, pins: dict[str, str], scope: ParamScope, parent: "Frame | None", flattener: "Flattener", depth: int) -> None:
         self.definition = definition
@@ -36,8 +36,18 @@ class Frame:
         self.flattener = flattener
         self.depth = depth
         self._models: dict[str, str | None] = {}
+        self._nodes: dict[str, str] = {}
 
     def node(self, raw: str) -> str:
+        try:
+            return self._nodes[raw]
+        except KeyError:
+            pass
+        mapped = self._map_node(raw)
+        self._nodes[raw] = mapped
+        return mapped
+
+    def _map_node(self, raw: str) -> str:
         name = raw.lower()
         if name in GROUND_NAMES:
             return GROUND

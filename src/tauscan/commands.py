@@ -164,10 +164,10 @@ def cmd_check(args: argparse.Namespace) -> int:
     if args.format == "table":
         from tauscan.report import check_table
 
-        text = check_table.render(runs, code)
         if args.output is None:
             check_table.print_to_terminal(runs, code)
             return code
+        text = check_table.render(runs, code)
     elif args.format == "json":
         text = _render("json", runs, None, code)
     else:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 from collections.abc import Callable
 
 
@@ -25,6 +26,7 @@ def add_subcommands(sub, add_common: Callable[[argparse.ArgumentParser], None]) 
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
     p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
+    _add_batch_options(p)
     p.set_defaults(handler=cmd_scan)
 
     p = sub.add_parser("check", help="lint gate: findings against thresholds and waivers, with exit codes")
@@ -35,6 +37,7 @@ def add_subcommands(sub, add_common: Callable[[argparse.ArgumentParser], None]) 
     p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
     p.add_argument("--format", choices=["table", "json", "sarif"], default="table")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
+    _add_batch_options(p)
     p.set_defaults(handler=cmd_check)
 
 
@@ -46,6 +49,13 @@ def _positive_int(text: str) -> int:
     if value < 0:
         raise argparse.ArgumentTypeError("expected 0 or more")
     return value
+
+
+def _add_batch_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--corner", action="append", default=[], metavar="NAME:PARAM=V,...",
+                   help="scan once per corner: parameter overrides and temp=C (repeatable)")
+    p.add_argument("--jobs", type=_positive_int, default=0, metavar="N",
+                   help="worker processes for several netlists or corners (default: the number of cores)")
 
 
 def _add_analysis_options(p: argparse.ArgumentParser) -> None:
@@ -98,17 +108,37 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
     from tauscan.lint.settings import bandwidth_value
     from tauscan.pipeline import ScanRequest
 
+    from tauscan.corners import parse_corner
+
     floor = bandwidth_value(args.min_bandwidth) if args.min_bandwidth else None
     params = parse_params(args.param)
-    return [ScanRequest(netlist=n, params=params, temp_c=args.temp, op_file=args.op_file, probe=args.probe,
-                        source=args.source, config=args.config, min_bandwidth=floor,
-                        fail_on=getattr(args, "fail_on", None)) for n in netlists]
+    corners = [parse_corner(text) for text in args.corner] or [None]
+    requests = []
+    for netlist in netlists:
+        for corner in corners:
+            merged = dict(params)
+            temp = args.temp
+            if corner is not None:
+                merged.update(corner.params)
+                temp = corner.temp_c if corner.temp_c is not None else temp
+            requests.append(ScanRequest(netlist=netlist, params=merged, temp_c=temp, op_file=args.op_file,
+                                        probe=args.probe, source=args.source, config=args.config,
+                                        min_bandwidth=floor, fail_on=getattr(args, "fail_on", None),
+                                        corner=corner.name if corner else None))
+    return requests
 
 
-def _run_all(requests):
-    from tauscan.pipeline import scan
+def _run_all(requests, jobs: int = 1):
+    """Scan every request, in worker processes when there are several and jobs allow."""
+    from tauscan.pipeline import scan, scan_in_worker
     from tauscan.report.progress import StageProgress
 
+    workers = jobs or os.cpu_count() or 1
+    if len(requests) > 1 and workers > 1:
+        from concurrent.futures import ProcessPoolExecutor
+
+        with ProcessPoolExecutor(max_workers=min(workers, len(requests))) as pool:
+            return list(pool.map(scan_in_worker, requests))
     with StageProgress() as progress:
         return [scan(r, progress) for r in requests]
 
@@ -116,7 +146,7 @@ def _run_all(requests):
 def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report.output import write_bytes, write_text
 
-    runs = _run_all(_requests(args, [args.netlist]))
+    runs = _run_all(_requests(args, [args.netlist]), args.jobs)
     top = args.top or None
     fmt = args.format
     if fmt == "table" and args.output is None:
@@ -159,7 +189,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from tauscan.lint.gate import exit_code
     from tauscan.report.output import write_text
 
-    runs = _run_all(_requests(args, args.netlist))
+    runs = _run_all(_requests(args, args.netlist), args.jobs)
     code = max(exit_code(r.lint.findings, r.settings.fail_on) for r in runs)
     if args.format == "table":
         from tauscan.report import check_table

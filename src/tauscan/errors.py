@@ -36,6 +36,10 @@ class TauscanError(Exception):
         self.col = col
         self.text = text
 
+    def __reduce__(self):
+        # keep the location when the error crosses a process boundary (--jobs)
+        return (type(self), (self.message, self.file, self.line, self.col, self.text))
+
     def where(self) -> str:
         parts = [self.file or "<input>"]
         if self.line is not None:

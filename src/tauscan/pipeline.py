@@ -29,6 +29,7 @@ class ScanRequest:
     min_bandwidth: float | None = None
     fail_on: str | None = None
     response: bool = True
+    corner: str | None = None  # name of the process/voltage/temperature corner, if any
 
 
 @dataclass
@@ -67,6 +68,13 @@ def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
     base = lint_settings.load(path) if path else lint_settings.LintSettings()
     return base.merged(min_bandwidth=request.min_bandwidth, fail_on=request.fail_on,
                        probe=request.probe, source=request.source)
+
+
+def scan_in_worker(request: ScanRequest) -> ScanRun:
+    """One scan in a worker process (no progress display); the small-signal matrices stay behind."""
+    run = scan(request)
+    run.network = None
+    return run
 
 
 def scan(request: ScanRequest, progress=None) -> ScanRun:

@@ -12,15 +12,35 @@ from tauscan.report.scan_table import SEVERITY_STYLE
 from tauscan.units import eng
 
 
+def _bandwidth(run) -> float:
+    a = run.analysis
+    return a.f3db_hz or a.octc_hz or float("inf")
+
+
+def worst_corners(runs: list) -> set[int]:
+    """Indices of the run with the lowest bandwidth for each netlist scanned at several corners."""
+    by_netlist: dict[str, list[int]] = {}
+    for k, run in enumerate(runs):
+        if run.request.corner is not None:
+            by_netlist.setdefault(run.request.netlist, []).append(k)
+    return {min(ks, key=lambda k: _bandwidth(runs[k])) for ks in by_netlist.values() if len(ks) > 1}
+
+
 def renderables(runs: list, code: int) -> Group:
+    corners = any(run.request.corner for run in runs)
+    worst = worst_corners(runs)
     overview = Table(title="Netlists", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
-    for col in ("netlist", "estimate", "-3 dB", "errors", "warnings", "notes"):
-        overview.add_column(col, justify="left" if col == "netlist" else "right")
-    for run in runs:
+    columns = ["netlist"] + (["corner"] if corners else []) + ["estimate", "-3 dB", "errors", "warnings", "notes"]
+    for col in columns:
+        overview.add_column(col, justify="left" if col in ("netlist", "corner") else "right")
+    for k, run in enumerate(runs):
         a = run.analysis
         counts = {s: sum(1 for f in run.lint.findings if f.severity == s) for s in ("error", "warning", "note")}
-        overview.add_row(run.request.netlist, eng(a.octc_hz, "Hz"), eng(a.f3db_hz, "Hz"),
-                         str(counts["error"]), str(counts["warning"]), str(counts["note"]))
+        cells = [run.request.netlist]
+        if corners:
+            cells.append((run.request.corner or "") + (" (worst)" if k in worst else ""))
+        cells += [eng(a.octc_hz, "Hz"), eng(a.f3db_hz, "Hz"), str(counts["error"]), str(counts["warning"]), str(counts["note"])]
+        overview.add_row(*cells, style="bold" if k in worst else None)
     parts = [overview]
     findings = [f for run in runs for f in run.lint.findings]
     if findings:

@@ -9,12 +9,13 @@ def scan_record(run) -> dict:
     a = run.analysis
     data = a.to_json()
     data["netlist"] = run.request.netlist
+    data["corner"] = run.request.corner
     data["title"] = a.title
     data["findings"] = [f.to_json() for f in run.lint.findings]
     data["waivers"] = [{"capacitor": w.capacitor, "reason": w.reason, "source": w.source} for w in run.lint.waivers]
     data["warnings"] = list(a.warnings)
     data["methods"] = dict(a.methods)
-    ordered = {k: data[k] for k in ("netlist", "title", "source", "probe", "summary", "capacitors", "nodes", "poles",
+    ordered = {k: data[k] for k in ("netlist", "corner", "title", "source", "probe", "summary", "capacitors", "nodes", "poles",
                                     "findings", "waivers", "warnings", "methods")}
     return ordered
 

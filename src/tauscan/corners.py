@@ -1,0 +1,46 @@
+"""Process, voltage and temperature corners: ``--corner NAME:PARAM=VALUE,...``.
+
+A corner overrides global parameters (``vdd=1.62``) and may set the temperature
+(``temp=125``); each netlist is scanned once per corner and the report shows them
+side by side.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+from tauscan.errors import SettingsError
+from tauscan.units import parse_number
+
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.-]*\Z")
+
+
+@dataclass(frozen=True)
+class Corner:
+    name: str
+    params: dict = field(default_factory=dict)
+    temp_c: float | None = None
+
+
+def parse_corner(text: str) -> Corner:
+    """``NAME:PARAM=VALUE,...`` -> a Corner (values take SPICE suffixes; ``temp`` is in Celsius)."""
+    name, sep, body = text.partition(":")
+    name = name.strip()
+    if not sep or not _NAME.match(name):
+        raise SettingsError(f"--corner expects NAME:PARAM=VALUE[,PARAM=VALUE...], not {text!r}")
+    params: dict[str, float] = {}
+    temp = None
+    for item in filter(None, (x.strip() for x in body.split(","))):
+        key, eq, raw = item.partition("=")
+        value = parse_number(raw.strip()) if eq else None
+        if not eq or not key.strip() or value is None:
+            raise SettingsError(f"--corner {name}: {item!r} is not PARAM=VALUE with a number")
+        key = key.strip().lower()
+        if key == "temp":
+            temp = value
+        else:
+            params[key] = value
+    if not params and temp is None:
+        raise SettingsError(f"--corner {name}: give at least one PARAM=VALUE")
+    return Corner(name.lower(), params, temp)

@@ -112,9 +112,13 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
 
     floor = bandwidth_value(args.min_bandwidth) if args.min_bandwidth else None
     params = parse_params(args.param)
-    corners = [parse_corner(text) for text in args.corner] or [None]
+    from tauscan.pipeline import settings_for
+
+    given = [parse_corner(text) for text in args.corner]
     requests = []
     for netlist in netlists:
+        # corners from the command line, else from the netlist's settings file
+        corners = given or list(settings_for(ScanRequest(netlist, config=args.config)).corners) or [None]
         for corner in corners:
             merged = dict(params)
             temp = args.temp

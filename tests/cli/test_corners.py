@@ -1,6 +1,7 @@
 """Corners (--corner) and worker processes (--jobs): several runs, one report, one exit code."""
 
 import json
+from pathlib import Path
 
 from tests.conftest import SAMPLES, run_cli
 
@@ -39,3 +40,15 @@ def test_bad_corner_and_bad_netlist_in_a_worker(tmp_path):
     bad.write_text("t\nR1 a b\n")
     result = run_cli("check", SENSOR, str(bad), "--jobs", "2")
     assert result.returncode == 2 and result.stderr.startswith(f"{bad}:2:")  # location survives the worker
+
+
+def test_corners_from_the_settings_file(tmp_path):
+    (tmp_path / "tauscan.toml").write_text("[corners]\nslow = { vdd = 1.62, temp = 125 }\nfast = { vdd = \"1.98\", temp = -40 }\n")
+    path = tmp_path / "s.sp"
+    path.write_text(Path(SENSOR).read_text())
+    result = run_cli("check", str(path), "--format", "json", "--jobs", "1")
+    assert result.returncode == 0, result.stderr
+    assert [r["corner"] for r in json.loads(result.stdout)["runs"]] == ["slow", "fast"]
+    (tmp_path / "tauscan.toml").write_text("[corners]\nslow = { vdd = \"fast\" }\n")
+    result = run_cli("check", str(path))
+    assert result.returncode == 2 and "must be a number" in result.stderr

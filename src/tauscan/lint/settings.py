@@ -31,7 +31,7 @@ try:  # Python 3.11+
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib  # type: ignore[no-redef]
 
-KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive"}
+KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive", "corners"}
 
 
 @dataclass(frozen=True)
@@ -44,6 +44,7 @@ class LintSettings:
     source: str | None = None
     severity: dict = field(default_factory=dict)
     waive: dict = field(default_factory=dict)  # glob -> reason
+    corners: tuple = ()  # tauscan.corners.Corner, from a [corners] table
     origin: str | None = None  # the file the settings came from
 
     def merged(self, **overrides) -> "LintSettings":
@@ -134,7 +135,39 @@ def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
         if not isinstance(table, dict) or not all(isinstance(v, str) and v.strip() for v in table.values()):
             raise SettingsError("waive must be a table of capacitor-name glob = reason", path, _line_of(text, "waive"))
         values["waive"] = {k.lower(): v for k, v in table.items()}
+    if "corners" in data:
+        values["corners"] = _corners(data["corners"], path, _line_of(text, "[corners]") or _line_of(text, "corners"))
     return LintSettings(**values)
+
+
+def _corners(table, path: str, line: int | None) -> tuple:
+    """``[corners]`` with one sub-table per corner: ``slow = { vdd = 1.62, temp = 125 }``."""
+    from tauscan.corners import Corner
+
+    if not isinstance(table, dict):
+        raise SettingsError("corners must be a table of corner = { PARAM = value, temp = C }", path, line)
+    out = []
+    for name, body in table.items():
+        if not isinstance(body, dict) or not body:
+            raise SettingsError(f"corner {name!r} must be a table of PARAM = value", path, line)
+        params, temp = {}, None
+        for key, raw in body.items():
+            value = _number(raw, f"corner {name}: {key}", path, line)
+            if key.lower() == "temp":
+                temp = value
+            else:
+                params[key.lower()] = value
+        out.append(Corner(name.lower(), params, temp))
+    return tuple(out)
+
+
+def _number(raw, what: str, path: str, line: int | None) -> float:
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        return float(raw)
+    value = parse_number(raw.strip()) if isinstance(raw, str) else None
+    if value is None:
+        raise SettingsError(f"{what} must be a number, not {raw!r}", path, line)
+    return value
 
 
 def bandwidth_value(raw, path: str | None = None, line: int | None = None) -> float:

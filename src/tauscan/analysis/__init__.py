@@ -97,7 +97,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     excess = tc.miller_excess(table)
     cascoded = tc.cascoded_tau(table)
     # -- poles and what to fix ---------------------------------------------------
-    found = poles_mod.find_poles(ss.g, ss.c, lu, settings.dense_limit)
+    found = poles_mod.find_poles(ss.g, ss.c, lu, settings.dense_limit, cache=ss)
     warnings.extend(found.notes)
     shares = np.full(m, np.nan)
     if found.right is not None and found.left is not None and m:
@@ -114,7 +114,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
         b = net.ac_vector(src)[1:]
         probe_name, probe_row = _probe(ss, lu, b, probe, src, octc)
         if probe_row is not None and settings.response:
-            resp = poles_mod.Response(ss.g, ss.c, b, probe_row)
+            resp = poles_mod.Response(ss.g, ss.c, b, probe_row, cache=ss)
             dc_gain = abs(resp(0.0))
             f3, note = poles_mod.f3db(resp, found, octc)
             if resp.ill_conditioned:
@@ -188,7 +188,7 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
     n = ss.n_nodes
     mags = np.abs(lu.solve(b.real)[:n]) if not np.any(b.imag) else np.zeros(n)
     if octc:
-        solver = poles_mod.ComplexSolver(ss.g, ss.c)
+        solver = poles_mod.complex_solver(ss.g, ss.c, ss)
         for f in np.geomspace(octc / 10, octc * 1e3, 4):
             try:
                 x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))

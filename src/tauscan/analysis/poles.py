@@ -49,13 +49,13 @@ class Poles:
         return complex(self.values[0]) if len(self.values) else None
 
 
-def find_poles(g: sp.csc_matrix, c: sp.csc_matrix, lu=None, dense_limit: int = DENSE_LIMIT) -> Poles:
+def find_poles(g: sp.csc_matrix, c: sp.csc_matrix, lu=None, dense_limit: int = DENSE_LIMIT, cache: object | None = None) -> Poles:
     n = g.shape[0]
     if c.nnz == 0 or n == 0:
         return Poles(np.zeros(0, dtype=complex), True, "none")
     if n <= dense_limit:
         return _dense(g, c)
-    return _sparse(g, c, lu)
+    return _sparse(g, c, lu, cache)
 
 
 def _dense(g, c) -> Poles:
@@ -73,7 +73,7 @@ def _dense(g, c) -> Poles:
     return Poles(_tidy(poles), True, "dense", vr[:, k], np.conj(vl[:, k]))
 
 
-def _sparse(g, c, lu) -> Poles:
+def _sparse(g, c, lu, cache=None) -> Poles:
     """The dominant pole first (ARPACK with k=1 converges fast when it stands apart), then
     as many of the next few as ARPACK finds within a bounded number of iterations: many
     identical stages give clusters of equal poles that it would chase for a long time."""
@@ -100,7 +100,7 @@ def _sparse(g, c, lu) -> Poles:
     right = left = None
     if len(poles):
         try:
-            right, left = eigenvectors(g, c, complex(poles[0]))
+            right, left = eigenvectors(g, c, complex(poles[0]), cache=cache)
         except RuntimeError:
             notes.append("the dominant pole's eigenvectors could not be found; no pole shares")
     return Poles(poles, False, "sparse shift-invert", right, left, notes)
@@ -122,11 +122,11 @@ def _tidy(poles: np.ndarray) -> np.ndarray:
     return out
 
 
-def eigenvectors(g, c, p: complex, steps: int = 3) -> tuple[np.ndarray, np.ndarray]:
+def eigenvectors(g, c, p: complex, steps: int = 3, cache: object | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Right and left null vectors of (G + pC) by inverse iteration with a slightly shifted pole."""
     n = g.shape[0]
     shift = p * (1.0 + 1e-8) + 1e-30
-    solver = ComplexSolver(g, c)
+    solver = complex_solver(g, c, cache)
     lu = solver.factor(shift)
     rng = np.random.default_rng(12345)  # fixed seed: results are deterministic
     x = rng.standard_normal(n) + 0j
@@ -192,17 +192,29 @@ class ComplexSolver:
         return lu.solve(b[self.perm], trans=trans)[self.inverse]
 
 
+def complex_solver(g, c, cache: object | None = None) -> ComplexSolver:
+    """The ComplexSolver for (G, C), made once per ``cache`` object (its ordering is the costly part)."""
+    if cache is not None:
+        found = getattr(cache, "_complex_solver", None)
+        if found is not None:
+            return found
+    solver = ComplexSolver(g, c)
+    if cache is not None:
+        cache._complex_solver = solver
+    return solver
+
+
 class Response:
     """|H(j 2 pi f)| from a source vector to one row."""
 
-    def __init__(self, g: sp.csc_matrix, c: sp.csc_matrix, b: np.ndarray, row: int) -> None:
+    def __init__(self, g: sp.csc_matrix, c: sp.csc_matrix, b: np.ndarray, row: int, cache: object | None = None) -> None:
         self.b, self.row = b.astype(complex), row
         self.ill_conditioned = False
         self.dense = g.shape[0] <= DENSE_LIMIT
         if self.dense:
             self._gd, self._cd = g.toarray(), c.toarray()
         else:
-            self._solver = ComplexSolver(g, c)
+            self._solver = complex_solver(g, c, cache)
 
     def __call__(self, f: float) -> complex:
         s = 2j * math.pi * f

@@ -30,6 +30,8 @@ from tauscan.errors import CircuitError
 
 #: Above this many distinct columns the selected inversion is used when it applies.
 SELECTED_MIN_COLUMNS = 2000
+#: Columns whose pattern positions are looked up together in the selected inversion.
+TAKAHASHI_CHUNK = 2048
 #: Largest dense right-hand side block (entries) per batch of column solves.
 BATCH_ENTRIES = 4_000_000
 
@@ -153,30 +155,49 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> tuple[np.n
             raise _NotClosed()
         return p
 
-    for j in range(n - 1, -1, -1):
-        s = prow[pptr[j] : pptr[j + 1]]
-        djj = diag[j]
-        if len(s) == 0:
-            vals[positions(np.array([j * (n + 1)]))] = 1.0 / djj
-            continue
-        # L[s, j] and U~[j, s] as dense vectors over s (0 where not stored)
-        lv = np.zeros(len(s))
-        seg = slice(l_ptr[j], l_ptr[j + 1])
-        li, lx = l_idx[seg], l_val[seg]
-        m = li > j
-        lv[np.searchsorted(s, li[m])] = lx[m]
-        uv = np.zeros(len(s))
-        seg = slice(u_ptr[j], u_ptr[j + 1])
-        ui, ux = u_idx[seg], u_val[seg]
-        m = ui > j
-        uv[np.searchsorted(s, ui[m])] = ux[m] / djj
-        block_pos = positions((s[:, None] * n + s[None, :]).ravel())
-        wss = vals[block_pos].reshape(len(s), len(s))
-        col = -(wss @ lv)  # W[s, j]
-        row = -(uv @ wss)  # W[j, s]
-        vals[positions(s * n + j)] = col
-        vals[positions(j * n + s)] = row
-        vals[positions(np.array([j * (n + 1)]))] = 1.0 / djj - uv @ col
+    for top in range(n - 1, -1, -TAKAHASHI_CHUNK):
+        columns = range(top, max(top - TAKAHASHI_CHUNK, -1), -1)
+        # the positions every column of this chunk reads and writes, found in one search
+        wanted = []
+        for j in columns:
+            sj = prow[pptr[j] : pptr[j + 1]]
+            wanted.append((sj[:, None] * n + sj[None, :]).ravel())
+            wanted.append(sj * n + j)
+            wanted.append(j * n + sj)
+            wanted.append(np.array([j * (n + 1)], dtype=np.int64))
+        found = positions(np.concatenate(wanted))
+        at = 0
+        for j in columns:
+            s = prow[pptr[j] : pptr[j + 1]]
+            m_s = len(s)
+            block_pos = found[at : at + m_s * m_s]
+            at += m_s * m_s
+            col_pos = found[at : at + m_s]
+            at += m_s
+            row_pos = found[at : at + m_s]
+            at += m_s
+            diag_pos = found[at]
+            at += 1
+            djj = diag[j]
+            if m_s == 0:
+                vals[diag_pos] = 1.0 / djj
+                continue
+            # L[s, j] and U~[j, s] as dense vectors over s (0 where not stored)
+            lv = np.zeros(m_s)
+            seg = slice(l_ptr[j], l_ptr[j + 1])
+            li, lx = l_idx[seg], l_val[seg]
+            m = li > j
+            lv[np.searchsorted(s, li[m])] = lx[m]
+            uv = np.zeros(m_s)
+            seg = slice(u_ptr[j], u_ptr[j + 1])
+            ui, ux = u_idx[seg], u_val[seg]
+            m = ui > j
+            uv[np.searchsorted(s, ui[m])] = ux[m] / djj
+            wss = vals[block_pos].reshape(m_s, m_s)
+            col = -(wss @ lv)  # W[s, j]
+            vals[col_pos] = col
+            vals[row_pos] = -(uv @ wss)  # W[j, s]
+            vals[diag_pos] = 1.0 / djj - uv @ col
     return keys, vals
 
 

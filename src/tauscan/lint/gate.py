@@ -41,12 +41,12 @@ def signal_nodes(analysis, ss, op) -> set | None:
     """Nodes that respond to the AC source at a frequency below the estimate (a tenth of it)."""
     if analysis.source is None:
         return None
-    from tauscan.analysis.poles import ComplexSolver
+    from tauscan.analysis.poles import complex_solver
 
     src = ss.circuit.element(analysis.source)
     b = ss.network.ac_vector(src)[1:]
     f = (analysis.octc_hz or 1.0) / 10
-    solver = ComplexSolver(ss.g, ss.c)
+    solver = complex_solver(ss.g, ss.c, ss)
     try:
         x = solver.solve(solver.factor(2j * np.pi * f), b.astype(complex))
     except RuntimeError:  # singular at this frequency: treat every device as on the signal path

@@ -26,6 +26,9 @@ from scipy.optimize import brentq
 
 #: Up to this many unknowns all poles are found with a dense eigen-solver.
 DENSE_LIMIT = 800
+#: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
+#: factorization; Brent's method then refines the bracket).
+F3DB_STEP = 8.0
 #: Number of dominant poles sought in a large circuit.
 SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
@@ -241,8 +244,8 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     """Where |H| falls to 1/sqrt(2) of |H(0)| (or of the mid-band peak when H(0) = 0).
 
     Small circuits: a sweep over the whole pole band, then Brent's method on the first
-    crossing.  Large ones (each point a sparse complex factorization): steps of 2x
-    upward from below the dominant pole or the estimate, then Brent's method.
+    crossing.  Large ones (each point a sparse complex factorization): steps
+    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then Brent's method.
     Returns the frequency (Hz, or None) and a note on how it was found.
     """
     h0 = resp.dc()
@@ -298,7 +301,7 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
         value = abs(resp(f))
         steps += 1
     while steps < 120:
-        f_next = f * 2
+        f_next = f * F3DB_STEP
         v_next = abs(resp(f_next))
         if not math.isfinite(v_next):
             return None, "the response is singular at some frequency; no -3 dB figure"

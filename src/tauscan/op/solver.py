@@ -27,6 +27,8 @@ from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
 from tauscan.op.result import OperatingPoint
 
+#: Newton steps taken after convergence to polish the solution (see DCSolver._polish).
+POLISH_STEPS = 2
 #: A device current above this (A) is reported as a sign of a broken bias network.
 MAX_DEVICE_CURRENT = 1.0
 
@@ -186,20 +188,25 @@ class DCSolver:
         raise _NotConverged(x, dx, step)
 
     def _polish(self, x, scale, shunt, states):
-        """One more unlimited Newton step from a converged point: Newton's quadratic
-        convergence takes the error from about ``reltol`` to far below it, so that
-        results do not depend on where the iteration happened to stop."""
-        jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
-        a = (self.lin + jdev + shunt).tocsc()
-        try:
-            xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
-        except RuntimeError:  # singular at the converged point: keep it as it is
-            return x, states
-        if not np.all(np.isfinite(xr)):
-            return x, states
-        x_new = np.concatenate([[0.0], xr])
-        _, _, _, polished_states, _ = self._devices(x_new, new_states, limit=False)
-        return x_new, polished_states
+        """Up to :data:`POLISH_STEPS` more unlimited Newton steps from a converged point:
+        Newton's quadratic convergence takes the error from about ``reltol`` to far below it,
+        so that results do not depend on where the iteration happened to stop."""
+        for _ in range(POLISH_STEPS):
+            jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
+            a = (self.lin + jdev + shunt).tocsc()
+            try:
+                xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
+            except RuntimeError:  # singular at the converged point: keep it as it is
+                return x, states
+            if not np.all(np.isfinite(xr)):
+                return x, states
+            x_new = np.concatenate([[0.0], xr])
+            _, _, _, states, _ = self._devices(x_new, new_states, limit=False)
+            step = np.max(np.abs(x_new - x), initial=0.0)
+            x = x_new
+            if step <= 1e-12 * max(np.max(np.abs(x), initial=0.0), 1.0):
+                break
+        return x, states
 
     def _singular(self, a) -> CircuitError:
         return CircuitError(

@@ -13,7 +13,6 @@ import argparse
 import math
 import os
 import sys
-import tempfile
 import time
 
 import numpy as np
@@ -43,7 +42,7 @@ def main() -> None:
     parser.add_argument("--no-response", action="store_true", help="skip the -3 dB sweep")
     parser.add_argument("--skip-baseline-above", type=int, default=60000, help="estimate the baseline from a sample of columns above this size")
     args = parser.parse_args()
-    from netlist_gen import stage_chain
+    from netlist_gen import chain_file
 
     from tauscan.analysis import AnalysisSettings, analyze_network
     from tauscan.linear import linearize
@@ -53,14 +52,8 @@ def main() -> None:
     print(f"{'nodes':>8} {'caps':>7} {'Z':>9} {'linearize':>9} {'analysis':>9} {'baseline':>9} {'ratio':>6}")
     previous = None
     for target in (int(x) for x in args.nodes.split(",")):
-        with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
-            # about 5 nodes per stage with 4 wiring segments
-            handle.write(stage_chain(target * 12 // 5))
-            path = handle.name
-        try:
+        with chain_file(target * 12 // 5) as path:  # about 5 nodes per stage with 4 wiring segments
             op = solve_dc(read_netlist(path))
-        finally:
-            os.unlink(path)
         t0 = time.perf_counter()
         ss = linearize(op)
         t1 = time.perf_counter()

@@ -12,7 +12,6 @@ import os
 import resource
 import subprocess
 import sys
-import tempfile
 import time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
@@ -41,14 +40,11 @@ def main() -> None:
     if args.child:
         _child(*args.child)
         return
-    from netlist_gen import stage_chain
+    from netlist_gen import chain_file
 
     print(f"{'lines':>9} {'elements':>9} {'read s':>8} {'lines/s':>10} {'peak MB':>8} {'split s':>8} {'ratio':>6}")
     for size in (int(s) for s in args.sizes.split(",")):
-        with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
-            handle.write(stage_chain(size))
-            path = handle.name
-        try:
+        with chain_file(size) as path:
             lines = sum(1 for _ in open(path))
             results = {}
             for mode in ("read", "split"):
@@ -58,8 +54,6 @@ def main() -> None:
             split_seconds = float(results["split"][1])
             rate = lines / float(seconds)
             print(f"{lines:>9} {count:>9} {float(seconds):>8.3f} {rate:>10.0f} {float(peak):>8.1f} {split_seconds:>8.3f} {float(seconds) / split_seconds:>6.1f}")
-        finally:
-            os.unlink(path)
 
 
 if __name__ == "__main__":

@@ -15,7 +15,6 @@ import os
 import resource
 import subprocess
 import sys
-import tempfile
 import time
 
 HERE = os.path.dirname(os.path.abspath(__file__))
@@ -96,23 +95,18 @@ def main() -> None:
         mode, path = args.child
         print(json.dumps(_child_scan(path) if mode == "scan" else _child_baseline(path)))
         return
-    from netlist_gen import stage_chain
+    from netlist_gen import chain_file
 
     stages = ["read", "operating point", "linearize", "analyze", "report"]
     print(f"{'lines':>8} " + " ".join(f"{s[:9]:>9}" for s in stages) + f" {'total s':>8} {'peak MB':>8} {'bare s':>7} {'ratio':>6}")
     previous = None
     for lines in (int(x) for x in args.lines.split(",")):
-        with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
-            handle.write(stage_chain(lines))
-            path = handle.name
-        try:
+        with chain_file(lines) as path:
             count = sum(1 for _ in open(path))
             out = {}
             for mode in ("scan", "baseline"):
                 res = subprocess.run([sys.executable, __file__, "--child", mode, path], capture_output=True, text=True, check=True)
                 out[mode] = json.loads(res.stdout)
-        finally:
-            os.unlink(path)
         t = out["scan"]["times"]
         total = sum(t[s] for s in stages)
         bare = out["baseline"]["seconds"]

@@ -2,6 +2,10 @@
 
 from __future__ import annotations
 
+import os
+import tempfile
+from contextlib import contextmanager
+
 MODELS = """\
 .model nch nmos level=1 (vto=0.45 kp=180u gamma=0.4 phi=0.8 lambda=0.08 tox=8n
 + cgso=0.3n cgdo=0.3n cgbo=0.1n cj=0.9m mj=0.45 cjsw=0.25n mjsw=0.3 pb=0.8)
@@ -40,3 +44,15 @@ def stage_chain(lines_wanted: int, segments: int = 4) -> str:
     out.append("Rbias2 bias 0 80k")
     out.append(".end")
     return "\n".join(out) + "\n"
+
+
+@contextmanager
+def chain_file(lines_wanted: int):
+    """A temporary netlist file of :func:`stage_chain` (deleted afterwards); yields its path."""
+    with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
+        handle.write(stage_chain(lines_wanted))
+        path = handle.name
+    try:
+        yield path
+    finally:
+        os.unlink(path)

@@ -120,31 +120,8 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
             if resp.ill_conditioned:
                 warnings.append("the small-signal system is ill-conditioned (a node held almost only by GMIN or "
                                 "junction leakage?); the -3 dB figure may be inaccurate")
-    # -- records ---------------------------------------------------------------------
-    caps = []
-    for k, r in enumerate(keep):
-        input_a = bool(table.input_is_a[k])
-        node_in, node_out = (r.a, r.b) if input_a else (r.b, r.a)
-        if table.grounded[k]:
-            node_out = "0"
-        part_in = table.part_a[k] if input_a else table.part_b[k]
-        part_out = table.part_b[k] if input_a else table.part_a[k]
-        removed = sum_tau - table.tau[k]
-        caps.append(CapacitorResult(
-            name=r.name, node_in=node_in, node_out=node_out, farads=r.farads, klass=str(table.klass[k]),
-            gain=None if table.grounded[k] else float(table.gain[k]),
-            gain_reverse=None if table.grounded[k] else float(table.gain_reverse[k]),
-            factor_in=float(table.factor_in[k]),
-            factor_out=None if table.grounded[k] else float(table.factor_out[k]),
-            ohms=float(table.ohms[k]), tau_s=float(table.tau[k]),
-            share=float(table.tau[k] / sum_tau) if sum_tau else math.nan,
-            part_in_s=float(part_in), part_out_s=float(part_out), miller_excess_s=float(excess[k]),
-            pole_share=float(shares[k]) if np.isfinite(shares[k]) else None,
-            octc_hz_if_removed=1.0 / (2 * math.pi * removed) if removed > 0 else None,
-            octc_hz_if_cascoded=(1.0 / (2 * math.pi * (sum_tau - table.tau[k] + cascoded[k]))
-                                 if np.isfinite(cascoded[k]) and sum_tau - table.tau[k] + cascoded[k] > 0 else None),
-            file=r.file, line=r.line, device=r.device, comment=r.comment,
-        ))
+    # -- records (columns computed with numpy, then turned into Python lists once) --------
+    caps = _capacitor_records(keep, table, excess, cascoded, shares, sum_tau)
     caps.sort(key=lambda c: (-c.tau_s, c.name))
     nodes = _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, settings.miller_threshold)
     methods = {"z": z_method, "poles": found.method}
@@ -157,6 +134,53 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
         excluded=excluded, warnings=warnings, methods=methods,
         bias_regions={d.name: d.region for d in op.devices}, floating=list(op.floating),
     )
+
+
+def _capacitor_records(keep, table, excess, cascoded, shares, sum_tau: float) -> list[CapacitorResult]:
+    m = len(keep)
+    if not m:
+        return []
+    input_a = np.asarray(table.input_is_a, dtype=bool)
+    grounded = np.asarray(table.grounded, dtype=bool)
+    tau = np.asarray(table.tau, dtype=float)
+    part_in = np.where(input_a, table.part_a, table.part_b).tolist()
+    part_out = np.where(input_a, table.part_b, table.part_a).tolist()
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = (tau / sum_tau).tolist() if sum_tau else [math.nan] * m
+        removed = sum_tau - tau
+        if_removed = np.where(removed > 0, 1.0 / (2 * math.pi * removed), np.nan)
+        with_cascode = sum_tau - tau + cascoded
+        if_cascoded = np.where(np.isfinite(cascoded) & (with_cascode > 0), 1.0 / (2 * math.pi * with_cascode), np.nan)
+    if_removed_l = [None if x != x else x for x in if_removed.tolist()]
+    if_cascoded_l = [None if x != x else x for x in if_cascoded.tolist()]
+    shares_l = [x if math.isfinite(x) else None for x in np.asarray(shares, dtype=float).tolist()]
+    klass = [str(k) for k in table.klass.tolist()]
+    gain = np.asarray(table.gain, dtype=float).tolist()
+    gain_rev = np.asarray(table.gain_reverse, dtype=float).tolist()
+    f_in = np.asarray(table.factor_in, dtype=float).tolist()
+    f_out = np.asarray(table.factor_out, dtype=float).tolist()
+    ohms = np.asarray(table.ohms, dtype=float).tolist()
+    tau_l = tau.tolist()
+    excess_l = np.asarray(excess, dtype=float).tolist()
+    input_l = input_a.tolist()
+    grounded_l = grounded.tolist()
+    caps = []
+    append = caps.append
+    for k, r in enumerate(keep):
+        g = grounded_l[k]
+        if input_l[k]:
+            node_in, node_out = r.a, r.b
+        else:
+            node_in, node_out = r.b, r.a
+        if g:
+            node_out = "0"
+        append(CapacitorResult(
+            r.name, node_in, node_out, r.farads, klass[k],
+            None if g else gain[k], None if g else gain_rev[k], f_in[k], None if g else f_out[k],
+            ohms[k], tau_l[k], share[k], part_in[k], part_out[k], excess_l[k], shares_l[k],
+            if_removed_l[k], if_cascoded_l[k], r.file, r.line, r.device, r.comment,
+        ))
+    return caps
 
 
 def _inductor_time_constants(ss: SmallSignalNetwork, lu) -> float:
@@ -208,16 +232,15 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
 def _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, threshold) -> list[NodeResult]:
     n = ss.n_nodes
     node_tau, miller = tc.node_sums([], a_rows, b_rows, table, n, excess)
-    out = []
-    touched = set(a_rows[a_rows >= 0]) | set(b_rows[b_rows >= 0])
+    touched = np.union1d(a_rows[a_rows >= 0], b_rows[b_rows >= 0]).astype(np.int64)
     names = ss.network.nodes
-    for row in sorted(touched):
-        t = float(node_tau[row])
-        mt = float(miller[row])
-        out.append(NodeResult(
-            node=names[row + 1], tau_s=t, share=t / sum_tau if sum_tau else math.nan,
-            miller_tau_s=mt, miller_share=mt / t if t > 0 else 0.0,
-            miller_dominated=bool(t > 0 and mt >= threshold * t),
-        ))
+    taus = node_tau[touched]
+    mts = miller[touched]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        shares = (taus / sum_tau).tolist() if sum_tau else [math.nan] * len(touched)
+        m_share = np.where(taus > 0, mts / taus, 0.0).tolist()
+    dominated = ((taus > 0) & (mts >= threshold * taus)).tolist()
+    out = [NodeResult(names[row + 1], t, sh, mt, ms, dom)
+           for row, t, sh, mt, ms, dom in zip(touched.tolist(), taus.tolist(), shares, mts.tolist(), m_share, dominated)]
     out.sort(key=lambda r: (-r.tau_s, r.node))
     return out

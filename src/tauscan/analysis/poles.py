@@ -29,6 +29,11 @@ DENSE_LIMIT = 800
 #: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
 #: factorization; Brent's method then refines the bracket).
 F3DB_STEP = 8.0
+#: |H(0)| below this fraction of the highest |H| means no DC path: the -3 dB point is then
+#: taken from the mid-band peak.
+MID_BAND_RATIO = 1e-9
+#: Below this many unknowns ARPACK has no room for its Krylov space: always dense.
+SPARSE_MIN = 40
 #: Number of dominant poles sought in a large circuit.
 SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
@@ -56,7 +61,7 @@ def find_poles(g: sp.csc_matrix, c: sp.csc_matrix, lu=None, dense_limit: int = D
     n = g.shape[0]
     if c.nnz == 0 or n == 0:
         return Poles(np.zeros(0, dtype=complex), True, "none")
-    if n <= dense_limit:
+    if n <= max(dense_limit, SPARSE_MIN):
         return _dense(g, c)
     return _sparse(g, c, lu, cache)
 
@@ -270,7 +275,7 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     note = "|H(0)|/sqrt(2)"
     start = 0
     reference = h0
-    if h0 <= 1e-9 * max(values):
+    if h0 <= MID_BAND_RATIO * max(values):
         start = int(np.argmax(values))
         reference = values[start]
         note = "mid-band peak/sqrt(2) (no DC path from the source to the probe)"
@@ -279,40 +284,56 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     target = reference / math.sqrt(2.0)
     for k in range(start + 1, len(freqs)):
         if values[k] < target <= values[k - 1]:
-            return _refine(resp, target, freqs[k - 1], freqs[k]), note
+            return _refine(resp, target, freqs[k - 1], freqs[k], values[k - 1], values[k]), note
     return None, "no -3 dB point within the searched band"
 
 
-def _refine(resp: Response, target: float, fa: float, fb: float) -> float | None:
+def _refine(resp: Response, target: float, fa: float, fb: float,
+            va: float | None = None, vb: float | None = None) -> float | None:
+    """Brent's method on log f between a bracket (``va``, ``vb``: |H| there, when known)."""
     def gap(lf: float) -> float:
         return abs(resp(math.exp(lf))) - target
 
     a, b = math.log(fa), math.log(fb)
-    ga, gb = gap(a), gap(b)
+    ga = gap(a) if va is None else va - target
+    gb = gap(b) if vb is None else vb - target
     if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
         return None
-    root = brentq(gap, a, b, xtol=1e-9, rtol=1e-10)
+    if ga == 0:
+        return fa
+    if gb == 0:
+        return fb
+    # 1e-8 in log f is a relative error of 1e-8 in the frequency, far below what is reported
+    root = brentq(gap, a, b, xtol=1e-8, rtol=1e-12)
     return math.exp(root)
 
 
 def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float | None) -> tuple[float | None, str]:
-    target = h0 / math.sqrt(2.0)
+    """Step up from below the dominant pole; the reference is |H(0)|, or the highest |H| met
+    so far when the probe has (almost) no DC path from the source (AC coupling), as in the
+    sweep of small circuits."""
     guesses = [abs(p) / (2 * math.pi) for p in poles.values[:1]] + ([estimate_hz] if estimate_hz else [])
     f = min(guesses) / 8 if guesses else 1.0
     value = abs(resp(f))
     steps = 0
-    while value < target and steps < 60:  # start below the crossing
+    while value < h0 / math.sqrt(2.0) and steps < 60:  # start below the crossing
         f /= 8
         value = abs(resp(f))
         steps += 1
+    peak = max(h0, value)
     while steps < 120:
         f_next = f * F3DB_STEP
         v_next = abs(resp(f_next))
         if not math.isfinite(v_next):
             return None, "the response is singular at some frequency; no -3 dB figure"
-        if v_next < target:
-            return _refine(resp, target, f, f_next), "|H(0)|/sqrt(2), found by stepping up from the dominant pole"
-        f, steps = f_next, steps + 1
+        peak = max(peak, v_next)
+        mid_band = h0 <= MID_BAND_RATIO * peak
+        target = (peak if mid_band else h0) / math.sqrt(2.0)
+        if v_next < target <= value:
+            note = ("mid-band peak/sqrt(2) (no DC path from the source to the probe), found by stepping up"
+                    if mid_band else "|H(0)|/sqrt(2), found by stepping up from the dominant pole")
+            return _refine(resp, target, f, f_next, value, v_next), note
+        f, value, steps = f_next, v_next, steps + 1
         if f > 1e18:
             break
     return None, "no -3 dB point within the searched band"

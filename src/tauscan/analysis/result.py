@@ -16,7 +16,7 @@ def _finite(x: float | None) -> float | None:
     return x if math.isfinite(x) else None
 
 
-@dataclass
+@dataclass(slots=True)
 class CapacitorResult:
     name: str
     node_in: str
@@ -66,7 +66,7 @@ class CapacitorResult:
         }
 
 
-@dataclass
+@dataclass(slots=True)
 class NodeResult:
     node: str
     tau_s: float

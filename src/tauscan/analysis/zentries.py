@@ -21,6 +21,8 @@ Two exact methods:
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
@@ -32,6 +34,8 @@ from tauscan.errors import CircuitError
 SELECTED_MIN_COLUMNS = 2000
 #: Columns whose pattern positions are looked up together in the selected inversion.
 TAKAHASHI_CHUNK = 2048
+#: Longest column structure for which the selected inversion runs on Python floats.
+SMALL_STRUCT = 6
 #: Largest dense right-hand side block (entries) per batch of column solves.
 BATCH_ENTRIES = 4_000_000
 
@@ -136,17 +140,20 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> tuple[np.n
     seed.sum_duplicates()
     seed.sort_indices()
     structs = _symbolic_closure(seed, n)
+    sizes = np.fromiter((len(x) for x in structs), dtype=np.int64, count=n)
     pptr = np.zeros(n + 1, dtype=np.int64)
-    pptr[1:] = np.cumsum([len(x) for x in structs])
-    prow = np.concatenate(structs) if n else np.zeros(0, dtype=np.int64)
+    pptr[1:] = np.cumsum(sizes)
+    prow = np.fromiter(itertools.chain.from_iterable(structs), dtype=np.int64, count=int(pptr[-1]))
     # the pattern of W: lower, its transpose, the diagonal; sorted keys row*n + col
-    cols_of = np.repeat(np.arange(n, dtype=np.int64), np.diff(pptr))
+    cols_of = np.repeat(np.arange(n, dtype=np.int64), sizes)
     keys = np.unique(np.concatenate([prow * n + cols_of, cols_of * n + prow, np.arange(n, dtype=np.int64) * (n + 1)]))
     vals = np.zeros(len(keys))
     lower.sort_indices()
     upper.sort_indices()
     l_ptr, l_idx, l_val = lower.indptr, lower.indices, lower.data
     u_ptr, u_idx, u_val = upper.indptr, upper.indices, upper.data
+    if n and int(sizes.max()) <= SMALL_STRUCT:
+        return keys, _takahashi_small(n, sizes, pptr, prow, cols_of, keys, diag, lower, upper)
 
     def positions(k: np.ndarray) -> np.ndarray:
         p = np.searchsorted(keys, k)
@@ -201,20 +208,97 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> tuple[np.n
     return keys, vals
 
 
-def _symbolic_closure(seed: sp.csc_matrix, n: int) -> list[np.ndarray]:
-    """Row structure below the diagonal of each column of the Cholesky-like fill of ``seed``."""
-    ptr, idx = seed.indptr, seed.indices.astype(np.int64)
-    structs: list[np.ndarray] = []
+def _takahashi_small(n: int, sizes: np.ndarray, pptr: np.ndarray, prow: np.ndarray, cols_of: np.ndarray,
+                     keys: np.ndarray, diag: np.ndarray, lower, upper) -> np.ndarray:
+    """The same recurrences on Python floats, for patterns whose every column is short
+    (chains and trees of stages), where per-column numpy calls would cost more than the
+    work.  Every position and factor entry is looked up beforehand in a few vector calls."""
+
+    def positions(k: np.ndarray) -> list[int]:
+        p = np.minimum(np.searchsorted(keys, k), len(keys) - 1)
+        if not np.array_equal(keys[p], k):
+            raise _NotClosed()
+        return p.tolist()
+
+    # the m x m block W[s, s] of every column, row-major, as positions
+    per_entry = sizes[cols_of]
+    total = int(per_entry.sum())
+    first = np.repeat(np.arange(len(prow), dtype=np.int64), per_entry)
+    block_start = np.repeat(np.cumsum(per_entry) - per_entry, per_entry)
+    second = np.repeat(pptr[:-1][cols_of], per_entry) + (np.arange(total, dtype=np.int64) - block_start)
+    pair_pos = positions(prow[first] * n + prow[second])
+    pair_ptr = np.zeros(n + 1, dtype=np.int64)
+    pair_ptr[1:] = np.cumsum(sizes * sizes)
+    col_pos = positions(prow * n + cols_of)
+    row_pos = positions(cols_of * n + prow)
+    diag_pos = positions(np.arange(n, dtype=np.int64) * (n + 1))
+    lv = np.asarray(lower[prow, cols_of]).ravel().tolist()  # L[s, j]
+    uv = (np.asarray(upper[cols_of, prow]).ravel() / diag[cols_of]).tolist()  # U~[j, s]
+    d = diag.tolist()
+    ptr = pptr.tolist()
+    pp = pair_ptr.tolist()
+    size = sizes.tolist()
+    vals = [0.0] * len(keys)
+    for j in range(n - 1, -1, -1):
+        m = size[j]
+        b0 = ptr[j]
+        if m == 0:
+            vals[diag_pos[j]] = 1.0 / d[j]
+        elif m == 1:
+            w = vals[pair_pos[pp[j]]]
+            c = -w * lv[b0]
+            vals[col_pos[b0]] = c
+            vals[row_pos[b0]] = -uv[b0] * w
+            vals[diag_pos[j]] = 1.0 / d[j] - uv[b0] * c
+        elif m == 2:
+            q = pp[j]
+            w00, w01, w10, w11 = vals[pair_pos[q]], vals[pair_pos[q + 1]], vals[pair_pos[q + 2]], vals[pair_pos[q + 3]]
+            l0, l1, u0, u1 = lv[b0], lv[b0 + 1], uv[b0], uv[b0 + 1]
+            c0 = -(w00 * l0 + w01 * l1)
+            c1 = -(w10 * l0 + w11 * l1)
+            vals[col_pos[b0]] = c0
+            vals[col_pos[b0 + 1]] = c1
+            vals[row_pos[b0]] = -(u0 * w00 + u1 * w10)
+            vals[row_pos[b0 + 1]] = -(u0 * w01 + u1 * w11)
+            vals[diag_pos[j]] = 1.0 / d[j] - (u0 * c0 + u1 * c1)
+        else:
+            q = pp[j]
+            w = [[vals[pair_pos[q + a * m + b]] for b in range(m)] for a in range(m)]
+            ls = lv[b0 : b0 + m]
+            us = uv[b0 : b0 + m]
+            diag_sum = 0.0
+            for a in range(m):
+                row = w[a]
+                c = 0.0
+                for b in range(m):
+                    c -= row[b] * ls[b]
+                vals[col_pos[b0 + a]] = c
+                diag_sum += us[a] * c
+                r = 0.0
+                for b in range(m):
+                    r -= us[b] * w[b][a]
+                vals[row_pos[b0 + a]] = r
+            vals[diag_pos[j]] = 1.0 / d[j] - diag_sum
+    return np.array(vals)
+
+
+def _symbolic_closure(seed: sp.csc_matrix, n: int) -> list[list[int]]:
+    """Row structure below the diagonal of each column of the Cholesky-like fill of ``seed``
+    (sorted lists of Python ints: most columns of a circuit hold a handful of rows)."""
+    ptr, idx = seed.indptr.tolist(), seed.indices.tolist()
+    structs: list[list[int]] = []
     children: list[list[int]] = [[] for _ in range(n)]
     for j in range(n):
-        parts = [idx[ptr[j] : ptr[j + 1]]]
-        for child in children[j]:
-            cs = structs[child]
-            parts.append(cs[cs > j])
-        col = np.unique(np.concatenate(parts)) if len(parts) > 1 else parts[0]
+        col = idx[ptr[j] : ptr[j + 1]]
+        kids = children[j]
+        if kids:
+            merged = set(col)
+            for child in kids:
+                merged.update(x for x in structs[child] if x > j)
+            col = sorted(merged)
         structs.append(col)
-        if len(col):
-            children[int(col[0])].append(j)
+        if col:
+            children[col[0]].append(j)
     return structs
 
 

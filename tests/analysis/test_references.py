@@ -205,7 +205,9 @@ def test_stepping_search_on_an_ac_coupled_probe(write, monkeypatch):
 
     from tauscan.analysis import poles
 
-    text = ("band-pass\nVin in 0 dc 0 ac 1\nC1 in a 1u\nR1 a 0 1k\nG1 0 b a 0 1m\nR2 b 0 1k\nC2 b 0 1n\n")
+    # a 1e15-ohm leak across C1 leaves a DC gain of 1e-12: too small to be the reference
+    text = ("band-pass\nVin in 0 dc 0 ac 1\nC1 in a 1u\nRleak in a 1e15\nR1 a 0 1k\nG1 0 b a 0 1m\nR2 b 0 1k\n"
+            "C2 b 0 1n\n")
     monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
     result = api.scan(write(text), probe="b", settings=AnalysisSettings(dense_limit=0))
 
@@ -216,5 +218,6 @@ def test_stepping_search_on_an_ac_coupled_probe(write, monkeypatch):
     peak = max(mag(f) for f in np.geomspace(1e2, 1e6, 4001))
     exact = brentq(lambda f: mag(f) - peak / math.sqrt(2), 1e4, 1e7)
     assert "mid-band" in result.f3db_note and "stepping" in result.f3db_note
-    # the sampled peak of an 8x search sits on the flat mid-band: within 0.1 %
-    assert_allclose(result.f3db_hz, exact, rtol=1e-3)
+    # the 8x grid samples the plateau about 0.1 % below its top (both corners are three
+    # decades from the samples' best point), which moves the crossing by about twice that
+    assert_allclose(result.f3db_hz, exact, rtol=5e-3)

@@ -29,7 +29,7 @@ def stage_chain(lines_wanted: int, segments: int = 4) -> str:
         gate = f"g{k}"
         drain = f"d{k}"
         out.append(f"M{k} {drain} {gate} 0 0 nch w=4u l=0.5u ad=2p as=2p pd=5u ps=5u")
-        out.append(f"Rl{k} vdd {drain} 30k")
+        out.append(f"Rl{k} vdd {drain} 3.3k")  # a gain of about -0.9: thousands of cascaded stages stay finite
         out.append(f"Cd{k} {drain} 0 2f")
         prev = drain
         for s in range(segments):
@@ -41,16 +41,57 @@ def stage_chain(lines_wanted: int, segments: int = 4) -> str:
         out.append(f"Cc{k} h{k + 1} g{k + 1} 1p")
         out.append(f"Rb{k} g{k + 1} bias 200k")
     out.append("Rbias1 vdd bias 100k")
-    out.append("Rbias2 bias 0 80k")
+    out.append("Rbias2 bias 0 56k")  # gates at about 0.65 V: every stage in saturation
     out.append(".end")
     return "\n".join(out) + "\n"
 
 
+def stage_mesh(lines_wanted: int, segments: int = 2) -> str:
+    """A square grid of common-source stages: each output is wired (RC ladders of
+    ``segments`` sections) to the gates of its right and lower neighbours, each gate
+    AC-coupled from up to two wires and biased from a shared divider.  The coupling
+    capacitors make the capacitance and Z patterns a two-dimensional mesh.
+
+    About ``6 + 4*segments`` lines per stage.
+    """
+    per_stage = 6 + 4 * segments
+    side = max(2, int((lines_wanted / per_stage) ** 0.5))
+    out = ["benchmark: mesh of gain stages with RC wiring", MODELS.rstrip()]
+    out.append("Vdd vdd 0 dc 1.8")
+    out.append("Vin in 0 dc 0 ac 1")
+    out.append("Cin in g0_0 1p")
+    for i in range(side):
+        for j in range(side):
+            k = f"{i}_{j}"
+            out.append(f"M{k} d{k} g{k} 0 0 nch w=4u l=0.5u ad=2p as=2p pd=5u ps=5u")
+            out.append(f"Rl{k} vdd d{k} 3.3k")  # a gain of about -0.9: thousands of cascaded stages stay finite
+            out.append(f"Cd{k} d{k} 0 2f")
+            out.append(f"Rb{k} g{k} bias 200k")
+            for tag, (ni, nj) in (("r", (i, j + 1)), ("u", (i + 1, j))):
+                if ni >= side or nj >= side:
+                    continue
+                prev = f"d{k}"
+                for s in range(segments):
+                    node = f"w{tag}{k}_{s}"
+                    out.append(f"Rw{tag}{k}_{s} {prev} {node} 25")
+                    out.append(f"Cw{tag}{k}_{s} {node} 0 0.3f")
+                    prev = node
+                out.append(f"Cc{tag}{k} {prev} g{ni}_{nj} 0.5p")
+    out.append("Rbias1 vdd bias 100k")
+    out.append("Rbias2 bias 0 56k")  # gates at about 0.65 V: every stage in saturation
+    out.append(".end")
+    return "\n".join(out) + "\n"
+
+
+GENERATORS = {"chain": stage_chain, "mesh": stage_mesh}
+
+
 @contextmanager
-def chain_file(lines_wanted: int):
-    """A temporary netlist file of :func:`stage_chain` (deleted afterwards); yields its path."""
+def chain_file(lines_wanted: int, kind: str = "chain"):
+    """A temporary netlist file of :func:`stage_chain` (or another of :data:`GENERATORS`),
+    deleted afterwards; yields its path."""
     with tempfile.NamedTemporaryFile("w", suffix=".sp", delete=False) as handle:
-        handle.write(stage_chain(lines_wanted))
+        handle.write(GENERATORS[kind](lines_wanted))
         path = handle.name
     try:
         yield path

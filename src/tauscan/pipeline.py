@@ -4,6 +4,7 @@ analyze -> lint.  Each stage takes the previous stage's objects and returns its 
 from __future__ import annotations
 
 import os
+import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 
@@ -41,6 +42,8 @@ class ScanRun:
     lint: LintResult
     settings: lint_settings.LintSettings
     network: object = None  # the small-signal network (for plots)
+    #: seconds per stage: read, operating point, linearize, analyze, lint
+    timings: dict = field(default_factory=dict)
 
     def response_curve(self, points: int = 200):
         """(freqs, |H|) from the source to the probe around the figures of interest, or (None, None)."""
@@ -57,10 +60,29 @@ class ScanRun:
         return response_curve(ss.g, ss.c, b, ss.row(a.probe), min(marks) / 1e3, max(marks) * 1e3, points)
 
 
+def _ignore(_done: int, _total: int) -> None:
+    pass
+
+
 class _NoProgress:
     @contextmanager
     def stage(self, _name: str):
-        yield
+        yield _ignore
+
+
+class _Timed:
+    """Wraps a progress display and records the seconds of each stage."""
+
+    def __init__(self, inner) -> None:
+        self.inner = inner
+        self.seconds: dict[str, float] = {}
+
+    @contextmanager
+    def stage(self, key: str, name: str):
+        start = time.perf_counter()
+        with self.inner.stage(name) as advance:
+            yield advance
+        self.seconds[key] = time.perf_counter() - start
 
 
 def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
@@ -78,18 +100,19 @@ def scan_in_worker(request: ScanRequest) -> ScanRun:
 
 
 def scan(request: ScanRequest, progress=None) -> ScanRun:
-    progress = progress or _NoProgress()
+    timed = _Timed(progress or _NoProgress())
     settings = settings_for(request)
-    with progress.stage(f"reading {os.path.basename(request.netlist)}"):
-        circuit = read_netlist(request.netlist, request.params)
-    with progress.stage("operating point"):
+    with timed.stage("read", f"reading {os.path.basename(request.netlist)}") as advance:
+        circuit = read_netlist(request.netlist, request.params, progress=advance)
+    with timed.stage("operating point", "operating point"):
         op = operating_point(circuit, request.temp_c, request.op_file)
-    with progress.stage("small-signal analysis"):
+    with timed.stage("linearize", "small-signal network"):
         ss = linearize(op)
+    with timed.stage("analyze", "small-signal analysis"):
         analysis = analyze_network(ss, op, settings.probe, settings.source,
                                    AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response))
         analysis.warnings.extend(circuit.warnings)
-    with progress.stage("lint rules"):
+    with timed.stage("lint", "lint rules"):
         signal = signal_nodes(analysis, ss, op)
         lint = run_rules(analysis, circuit, op, settings, settings.probe is not None, signal)
-    return ScanRun(request, circuit, op, analysis, lint, settings, ss)
+    return ScanRun(request, circuit, op, analysis, lint, settings, ss, timed.seconds)

@@ -192,7 +192,8 @@ class ComplexSolver:
         degree = np.asarray(pattern.sum(axis=1)).ravel() + 1.0
         probe = (pattern + sp.diags(degree)).tocsc()
         lu = spla.splu(probe, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
-        self.perm = lu.perm_c
+        # Pr A Pc = L U puts column i at position perm_c[i]: reorder by q = argsort(perm_c)
+        self.perm = np.argsort(lu.perm_c)
         self.inverse = np.argsort(self.perm)
         self._g = self.g[self.perm][:, self.perm].tocsc()
         self._c = self.c[self.perm][:, self.perm].tocsc()
@@ -261,7 +262,7 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     h0 = resp.dc()
     if not math.isfinite(h0):
         return None, "the response is singular at DC; no -3 dB figure"
-    if not resp.dense and h0 > 0:
+    if not resp.dense:
         return _f3db_stepping(resp, h0, poles, estimate_hz)
     mags = np.abs(poles.values) / (2 * math.pi) if len(poles.values) else np.array([estimate_hz or 1.0])
     lo = max(float(np.min(mags)) / 1e4, 1e-3)
@@ -290,21 +291,33 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
 
 def _refine(resp: Response, target: float, fa: float, fb: float,
             va: float | None = None, vb: float | None = None) -> float | None:
-    """Brent's method on log f between a bracket (``va``, ``vb``: |H| there, when known)."""
+    """Brent's method between a bracket (``va``, ``vb``: |H| there, when known), on
+    log|H| against log f: nearly straight on a roll-off, so a few evaluations do."""
+    log_target = math.log(target)
+
+    def log_gap(v: float) -> float:
+        return math.log(v) - log_target if v > 0 else -1e300
+
+    known: dict[float, float] = {}
+
     def gap(lf: float) -> float:
-        return abs(resp(math.exp(lf))) - target
+        if lf in known:  # brentq starts by evaluating both ends again
+            return known[lf]
+        return log_gap(abs(resp(math.exp(lf))))
 
     a, b = math.log(fa), math.log(fb)
-    ga = gap(a) if va is None else va - target
-    gb = gap(b) if vb is None else vb - target
+    ga = gap(a) if va is None else log_gap(va)
+    gb = gap(b) if vb is None else log_gap(vb)
+    known[a], known[b] = ga, gb
     if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
         return None
     if ga == 0:
         return fa
     if gb == 0:
         return fb
-    # 1e-8 in log f is a relative error of 1e-8 in the frequency, far below what is reported
-    root = brentq(gap, a, b, xtol=1e-8, rtol=1e-12)
+    # a tolerance in log f is a relative error of the frequency: 1e-6 (far below what is
+    # reported) where each point is a sparse factorization, 1e-9 where points are cheap
+    root = brentq(gap, a, b, xtol=1e-9 if resp.dense else 1e-6, rtol=1e-12)
     return math.exp(root)
 
 

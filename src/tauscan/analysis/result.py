@@ -9,11 +9,16 @@ import math
 from dataclasses import dataclass, field
 
 
+_INF = math.inf
+
+
 def _finite(x: float | None) -> float | None:
+    """``x`` as a float, or None when it is None, infinite or NaN (JSON has neither)."""
     if x is None:
         return None
-    x = float(x)
-    return x if math.isfinite(x) else None
+    if type(x) is not float:
+        x = float(x)
+    return x if -_INF < x < _INF else None
 
 
 @dataclass(slots=True)

@@ -19,7 +19,7 @@ from tauscan.network import GMIN, Network, Triplets
 from tauscan.op.result import OperatingPoint
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class CapacitorRecord:
     """One capacitor of the small-signal network: an element or a device part (``m1:cgd``)."""
 

@@ -70,16 +70,21 @@ class _OrderedLU:
     def __init__(self) -> None:
         self.perm: np.ndarray | None = None
         self.inverse: np.ndarray | None = None
+        self.last = None  # the latest factorization (for inspection)
 
     def factor(self, matrix):
         matrix = matrix.tocsc()
         if self.perm is None or len(self.perm) != matrix.shape[0]:
             lu = spla.splu(matrix, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
-            self.perm = lu.perm_c
+            # Pr A Pc = L U puts column i of A at position perm_c[i]: the matrix reordered
+            # by that ordering is A[q][:, q] with q = argsort(perm_c)
+            self.perm = np.argsort(lu.perm_c)
             self.inverse = np.argsort(self.perm)
+            self.last = lu
             return lu.solve
         permuted = matrix[self.perm][:, self.perm].tocsc()
         lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+        self.last = lu
         perm, inverse = self.perm, self.inverse
         return lambda b: lu.solve(b[perm])[inverse]
 

@@ -14,17 +14,19 @@ from tauscan.reader.flatten import flatten
 from tauscan.reader.loader import load
 
 
-def read_netlist(path: str, params: dict[str, float] | None = None) -> Circuit:
+def read_netlist(path: str, params: dict[str, float] | None = None, progress=None) -> Circuit:
     """Read ``path`` (and its includes) into a flat circuit.
 
-    ``params`` overrides global ``.param`` values (as ``--param`` does).
+    ``params`` overrides global ``.param`` values (as ``--param`` does); ``progress(done,
+    total)`` hears how many bytes of the file have been read.  The file is read a chunk at
+    a time: its text is never held whole.
     """
     # Reading makes millions of small tuples and no reference cycles; the cyclic
     # garbage collector would rescan them again and again (about 40% of the time).
     was_enabled = gc.isenabled()
     gc.disable()
     try:
-        return flatten(load(path), params)
+        return flatten(load(path, progress), params)
     finally:
         if was_enabled:
             gc.enable()

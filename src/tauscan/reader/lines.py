@@ -9,6 +9,8 @@ text, the original line and column, so that errors point into the real file.
 from __future__ import annotations
 
 import bisect
+import os
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
@@ -48,18 +50,23 @@ class Card:
         return cls(message, self.file, line, col, src)
 
 
-def decode(data: bytes, file: str) -> str:
-    """Text of a netlist file: UTF-8 (a BOM is dropped); anything else is an error."""
-    if b"\x00" in data[:65536] or b"\x00" in data:
-        pos = data.index(b"\x00")
-        line = data.count(b"\n", 0, pos) + 1
+#: Bytes read and decoded at a time: the file is never held whole, in bytes or in text.
+CHUNK_BYTES = 4 << 20
+
+
+def decode(data: bytes, file: str, first_line: int = 1) -> str:
+    """Text of (a chunk of) a netlist file that starts at ``first_line``: UTF-8 (a BOM at the
+    very start is dropped); NUL bytes and anything that is not UTF-8 are errors."""
+    pos = data.find(b"\x00")
+    if pos >= 0:
+        line = first_line + data.count(b"\n", 0, pos)
         raise NetlistSyntaxError("binary content (a NUL byte); this is not a netlist", file, line, None)
-    if data.startswith(b"\xef\xbb\xbf"):
+    if first_line == 1 and data.startswith(b"\xef\xbb\xbf"):
         data = data[3:]
     try:
         return data.decode("utf-8")
     except UnicodeDecodeError as exc:
-        line = data.count(b"\n", 0, exc.start) + 1
+        line = first_line + data.count(b"\n", 0, exc.start)
         start = data.rfind(b"\n", 0, exc.start) + 1
         col = exc.start - start + 1
         end = data.find(b"\n", exc.start)
@@ -69,21 +76,69 @@ def decode(data: bytes, file: str) -> str:
         ) from None
 
 
-def read_file(path: str, shown: str | None = None) -> str:
-    """Read and decode one netlist file, turning OS errors into our error family."""
+def read_lines(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[str]:
+    """The lines of one netlist file, read and decoded a chunk at a time (so that no more
+    than one chunk of the file is ever held besides what the caller keeps).  The file is
+    opened at once, so that a missing file is an error of this call; ``progress(done,
+    total)`` is told the bytes read after each chunk."""
     shown = shown or path
     try:
-        with open(path, "rb") as handle:
-            data = handle.read(MAX_FILE_BYTES + 1)
+        handle = open(path, "rb")
     except FileNotFoundError:
         raise IncludeError("file not found", shown) from None
     except IsADirectoryError:
         raise IncludeError("is a directory, not a netlist file", shown) from None
     except OSError as exc:
         raise IncludeError(f"cannot read the file ({exc.strerror})", shown) from None
-    if len(data) > MAX_FILE_BYTES:
+    try:
+        size = os.fstat(handle.fileno()).st_size
+    except OSError:
+        size = 0
+    if size > MAX_FILE_BYTES:
+        handle.close()
         raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
-    return decode(data, shown)
+    return _chunked_lines(handle, shown, size, progress)
+
+
+def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
+    line = 1
+    done = 0
+    pending = b""
+    with handle:
+        while True:
+            try:
+                chunk = handle.read(CHUNK_BYTES)
+            except OSError as exc:
+                raise IncludeError(f"cannot read the file ({exc.strerror})", shown) from None
+            done += len(chunk)
+            if done > MAX_FILE_BYTES:
+                raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
+            if not chunk:
+                if pending:
+                    yield from decode(pending, shown, line).splitlines()
+                return
+            data = pending + chunk if pending else chunk
+            cut = data.rfind(b"\n") + 1
+            if cut == 0:  # no end of line yet: one very long line
+                if len(data) > 4 * MAX_LINE_CHARS + 4:
+                    raise NetlistSyntaxError(
+                        f"line longer than the limit of {MAX_LINE_CHARS} characters", shown, line, 1,
+                        data[:60].decode("utf-8", "replace"))
+                pending = data
+                continue
+            pending = data[cut:]
+            text = decode(data[:cut] if pending else data, shown, line)
+            del data, chunk
+            line += text.count("\n")
+            yield from text.splitlines()
+            del text
+            if progress is not None:
+                progress(done, size)
+
+
+def read_file(path: str, shown: str | None = None) -> str:
+    """Read and decode one whole netlist file (for small files; the reader streams)."""
+    return "\n".join(read_lines(path, shown))
 
 
 def _split_comment(raw: str) -> tuple[str, str]:
@@ -112,23 +167,22 @@ def _split_comment(raw: str) -> tuple[str, str]:
     return raw, ""
 
 
-def logical_lines(text: str, file: str, *, has_title: bool) -> tuple[str, list[Card]]:
+def logical_lines(lines: str | Iterable[str], file: str, *, has_title: bool) -> tuple[str, list[Card]]:
     """Cards of one file in order, and its title (the first line) when ``has_title``.
 
+    ``lines`` is the file's text or its lines (as :func:`read_lines` gives them).
     ``.end`` stops reading; ``.control`` ... ``.endc`` blocks are skipped whole.
     """
     title = ""
     cards: list[Card] = []
-    lines = text.splitlines()
-    start = 0
-    if has_title and lines:
-        title = lines[0].strip()
-        start = 1
+    if isinstance(lines, str):
+        lines = lines.splitlines()
     current: Card | None = None
     in_control = False
-    for index in range(start, len(lines)):
-        raw = lines[index]
-        number = index + 1
+    for number, raw in enumerate(lines, 1):
+        if number == 1 and has_title:
+            title = raw.strip()
+            continue
         if len(raw) > MAX_LINE_CHARS:
             raise NetlistSyntaxError(
                 f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}",

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
 from tauscan.reader.fields import Field, card_fields
-from tauscan.reader.lines import Card, logical_lines, read_file
+from tauscan.reader.lines import Card, logical_lines, read_lines
 
 #: Deepest chain of nested ``.include`` files.
 MAX_INCLUDE_DEPTH = 64
@@ -76,15 +76,15 @@ def _filename(f: Field) -> str | None:
 class Loader:
     """Reads a netlist and the files it includes into a :class:`Netlist`."""
 
-    def __init__(self, path: str) -> None:
+    def __init__(self, path: str, progress=None) -> None:
         self.path = path
+        self.progress = progress
         self.stack: list[Definition] = []
         self.include_chain: list[str] = []
         self.netlist: Netlist | None = None
 
     def load(self) -> Netlist:
-        text = read_file(self.path)
-        title, cards = logical_lines(text, self.path, has_title=True)
+        title, cards = logical_lines(read_lines(self.path, progress=self.progress), self.path, has_title=True)
         if not title and not cards:
             raise NetlistSyntaxError("the netlist is empty", self.path, 1, 1, "")
         top = Definition("", [], None, None)
@@ -227,10 +227,10 @@ class Loader:
         if not os.path.isfile(path):
             raise card.error(IncludeError, f"{what} file not found: {path}", name_field[2])
         try:
-            text = read_file(path)
+            lines = read_lines(path)
         except IncludeError as exc:
             raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field[2]) from None
-        _, cards = logical_lines(text, path, has_title=False)
+        _, cards = logical_lines(lines, path, has_title=False)
         if section is not None:
             cards = self._section(cards, section, card, name_field, path)
         self.include_chain.append(real)
@@ -266,6 +266,7 @@ class Loader:
         return chosen
 
 
-def load(path: str) -> Netlist:
-    """Read ``path`` and its includes into a :class:`Netlist`."""
-    return Loader(path).load()
+def load(path: str, progress=None) -> Netlist:
+    """Read ``path`` and its includes into a :class:`Netlist` (``progress(done, total)``:
+    bytes of the top file read so far)."""
+    return Loader(path, progress).load()

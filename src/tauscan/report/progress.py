@@ -28,11 +28,24 @@ class StageProgress:
 
     @contextmanager
     def stage(self, name: str):
+        """A stage on the display; yields ``advance(done, total)`` for stages that can
+        tell how far they are (reading tells bytes of the file)."""
         if self._progress is None:
-            yield
+            yield _ignore
             return
-        task = self._progress.add_task(name, total=None)
+        progress = self._progress
+        task = progress.add_task(name, total=None)
+
+        def advance(done: int, total: int) -> None:
+            if total > 0:
+                progress.update(task, completed=done, total=total,
+                                description=f"{name} ({100 * min(done, total) // total}%)")
+
         try:
-            yield
+            yield advance
         finally:
-            self._progress.remove_task(task)
+            progress.remove_task(task)
+
+
+def _ignore(_done: int, _total: int) -> None:
+    pass

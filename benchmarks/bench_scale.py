@@ -1,9 +1,12 @@
-"""End-to-end scale benchmark: time and peak memory per stage for extracted-style netlists,
-against a bare baseline process that imports numpy and scipy, reads and splits the file and
-does one sparse LU of its conductance matrix.
+"""End-to-end scale benchmark: time and peak memory per stage for extracted-style netlists
+(chains and meshes of gain stages with RC wiring on every net), against a bare baseline
+process that imports numpy and scipy, reads and splits the file, and does one sparse LU of
+its conductance matrix.
 
-Run: ``python benchmarks/bench_scale.py [--lines 50000,100000,200000]``.  Each size runs in
-its own processes, so peak resident memory is per run.
+Run: ``python benchmarks/bench_scale.py [--kinds chain,mesh] [--lines 10000,50000,200000]``
+(add 1000000 for the largest run).  Each scan and each baseline runs in its own process,
+so peak resident memory is per run.  The scan is the real pipeline (``tauscan scan``'s
+stages) followed by the terminal table and, timed apart, the JSON report.
 """
 
 from __future__ import annotations
@@ -20,45 +23,32 @@ import time
 HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, HERE)
 
+STAGES = ["read", "operating point", "linearize", "analyze", "lint", "table"]
+
 
 def _peak_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 def _child_scan(path: str) -> dict:
-    times = {}
-    t = time.perf_counter()
-    from tauscan.analysis import AnalysisSettings, analyze_network
-    from tauscan.linear import linearize
-    from tauscan.op import solve_dc
-    from tauscan.reader import read_netlist
-    from tauscan.report import scan_json
+    start = time.perf_counter()
+    from tauscan.pipeline import ScanRequest, scan
+    from tauscan.report import scan_json, scan_table
 
-    times["import"] = time.perf_counter() - t
+    imported = time.perf_counter() - start
+    run = scan(ScanRequest(path))
+    times = dict(run.timings)
     t = time.perf_counter()
-    circuit = read_netlist(path)
-    times["read"] = time.perf_counter() - t
+    table = scan_table.render([run], 20)
+    times["table"] = time.perf_counter() - t
+    total = time.perf_counter() - start
+    peak = _peak_mb()
     t = time.perf_counter()
-    op = solve_dc(circuit)
-    times["operating point"] = time.perf_counter() - t
-    t = time.perf_counter()
-    ss = linearize(op)
-    times["linearize"] = time.perf_counter() - t
-    t = time.perf_counter()
-    analysis = analyze_network(ss, op, None, None, AnalysisSettings())
-    times["analyze"] = time.perf_counter() - t
-    t = time.perf_counter()
-
-    class _Run:  # the JSON reporter's view of a run
-        pass
-
-    run = _Run()
-    run.analysis = analysis
-    run.request = type("R", (), {"netlist": path, "corner": None})()
-    run.lint = type("L", (), {"findings": [], "waivers": []})()
     text = scan_json.render([run])
-    times["report"] = time.perf_counter() - t
-    return {"times": times, "peak_mb": _peak_mb(), "elements": len(circuit.elements), "json_bytes": len(text)}
+    json_s = time.perf_counter() - t
+    return {"times": times, "import": imported, "total": total, "peak_mb": peak, "json_s": json_s,
+            "json_mb": len(text) / 1e6, "table_chars": len(table), "elements": len(run.circuit.elements),
+            "capacitors": len(run.analysis.capacitors)}
 
 
 def _child_baseline(path: str) -> dict:
@@ -88,7 +78,8 @@ def _child_baseline(path: str) -> dict:
 
 def main() -> None:
     parser = argparse.ArgumentParser()
-    parser.add_argument("--lines", default="50000,100000,200000")
+    parser.add_argument("--kinds", default="chain,mesh")
+    parser.add_argument("--lines", default="10000,50000,200000")
     parser.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
@@ -97,25 +88,32 @@ def main() -> None:
         return
     from netlist_gen import chain_file
 
-    stages = ["read", "operating point", "linearize", "analyze", "report"]
-    print(f"{'lines':>8} " + " ".join(f"{s[:9]:>9}" for s in stages) + f" {'total s':>8} {'peak MB':>8} {'bare s':>7} {'ratio':>6}")
-    previous = None
-    for lines in (int(x) for x in args.lines.split(",")):
-        with chain_file(lines) as path:
-            count = sum(1 for _ in open(path))
-            out = {}
-            for mode in ("scan", "baseline"):
-                res = subprocess.run([sys.executable, __file__, "--child", mode, path], capture_output=True, text=True, check=True)
-                out[mode] = json.loads(res.stdout)
-        t = out["scan"]["times"]
-        total = sum(t[s] for s in stages)
-        bare = out["baseline"]["seconds"]
-        print(f"{count:>8} " + " ".join(f"{t[s]:>9.2f}" for s in stages)
-              + f" {total:>8.2f} {out['scan']['peak_mb']:>8.0f} {bare:>7.2f} {total / bare:>6.1f}")
-        if previous is not None:
-            pl, pt = previous
-            print(f"{'':>8} growth exponent of the total: {math.log(total / pt) / math.log(count / pl):.2f}")
-        previous = (count, total)
+    heads = ["read", "op", "linearize", "analyze", "lint", "table"]
+    print(f"{'kind':>5} {'lines':>8} " + " ".join(f"{h:>9}" for h in heads)
+          + f" {'total s':>8} {'peak MB':>8} {'bare s':>7} {'ratio':>6} {'json s':>7}")
+    for kind in args.kinds.split(","):
+        previous = None
+        for lines in (int(x) for x in args.lines.split(",")):
+            with chain_file(lines, kind) as path:
+                count = sum(1 for _ in open(path))
+                out = {}
+                for mode in ("scan", "baseline"):
+                    res = subprocess.run([sys.executable, __file__, "--child", mode, path], capture_output=True,
+                                         text=True, check=True)
+                    out[mode] = json.loads(res.stdout)
+            scan = out["scan"]
+            t = scan["times"]
+            total = scan["total"]
+            bare = out["baseline"]["seconds"]
+            print(f"{kind:>5} {count:>8} " + " ".join(f"{t[s]:>9.2f}" for s in STAGES)
+                  + f" {total:>8.2f} {scan['peak_mb']:>8.0f} {bare:>7.2f} {total / bare:>6.1f} {scan['json_s']:>7.2f}",
+                  flush=True)
+            if previous is not None:
+                pl, pt = previous
+                print(f"{'':>14} growth exponent of the total since {pl} lines: "
+                      f"{math.log(total / pt) / math.log(count / pl):.2f}", flush=True)
+            previous = (count, total)
+    print("total: import + every stage + the table; json: writing the JSON report besides (not in the total)")
 
 
 if __name__ == "__main__":

@@ -57,7 +57,7 @@ class ScanRun:
         if not marks:
             return None, None
         b = ss.network.ac_vector(self.circuit.element(a.source))[1:]
-        return response_curve(ss.g, ss.c, b, ss.row(a.probe), min(marks) / 1e3, max(marks) * 1e3, points)
+        return response_curve(ss.g, ss.c, b, ss.row(a.probe), min(marks) / 1e3, max(marks) * 1e3, points, cache=ss)
 
 
 def _ignore(_done: int, _total: int) -> None:

@@ -52,6 +52,31 @@ class SmallSignalNetwork:
         """Row of a node in G and C (-1 for ground)."""
         return self.network.node(node) - 1
 
+    def ac_ground_tree(self) -> list[tuple[int, int, int, int]]:
+        """The AC-ground nodes as ``(row, parent row or -1 for ground, source branch row,
+        sign)``, each after its parent: v[row] = v[parent] + sign * b[branch] in an AC
+        solve, b[branch] being the source's AC value (0 for every source not driven)."""
+        net = self.network
+        adjacent: dict[str, list[tuple[str, int, int]]] = {}
+        for e in self.circuit.elements:
+            if e.kind == "v" and e.name in net.branch_of:
+                p, n = e.nodes
+                br = net.branch_of[e.name] - 1
+                adjacent.setdefault(p, []).append((n, br, -1))  # reach n from p: v_n = v_p - b
+                adjacent.setdefault(n, []).append((p, br, +1))  # reach p from n: v_p = v_n + b
+        out = []
+        seen = {GROUND}
+        queue = [GROUND]
+        while queue:
+            node = queue.pop(0)
+            for other, br, sign in adjacent.get(node, []):
+                if other in seen:
+                    continue
+                seen.add(other)
+                queue.append(other)
+                out.append((self.row(other), self.row(node) if node != GROUND else -1, br, sign))
+        return out
+
 
 def ac_grounds(circuit: Circuit) -> set[str]:
     """Nodes tied to ground through independent voltage sources only (METHOD section 1)."""

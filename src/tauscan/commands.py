@@ -128,7 +128,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
             requests.append(ScanRequest(netlist=netlist, params=merged, temp_c=temp, op_file=args.op_file,
                                         probe=args.probe, source=args.source, config=args.config,
                                         min_bandwidth=floor, fail_on=getattr(args, "fail_on", None),
-                                        corner=corner.name if corner else None))
+                                        corner=corner.name if corner else None,
+                                        lib_section=corner.lib if corner else None))
     return requests
 
 

@@ -31,6 +31,7 @@ class ScanRequest:
     fail_on: str | None = None
     response: bool = True
     corner: str | None = None  # name of the process/voltage/temperature corner, if any
+    lib_section: str | None = None  # the corner's .lib section, if it selects one
 
 
 @dataclass
@@ -103,7 +104,7 @@ def scan(request: ScanRequest, progress=None) -> ScanRun:
     timed = _Timed(progress or _NoProgress())
     settings = settings_for(request)
     with timed.stage("read", f"reading {os.path.basename(request.netlist)}") as advance:
-        circuit = read_netlist(request.netlist, request.params, progress=advance)
+        circuit = read_netlist(request.netlist, request.params, progress=advance, lib_section=request.lib_section)
     with timed.stage("operating point", "operating point"):
         op = operating_point(circuit, request.temp_c, request.op_file)
     with timed.stage("linearize", "small-signal network"):

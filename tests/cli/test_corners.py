@@ -52,3 +52,60 @@ def test_corners_from_the_settings_file(tmp_path):
     (tmp_path / "tauscan.toml").write_text("[corners]\nslow = { vdd = \"fast\" }\n")
     result = run_cli("check", str(path))
     assert result.returncode == 2 and "must be a number" in result.stderr
+
+
+MODELS_LIB = """* process library with nested sections (invented values)
+.lib tt
+.lib 'models.lib' mos_tt
+.endl tt
+.lib ss
+.lib 'models.lib' mos_ss
+.endl ss
+.lib mos_tt
+.model nch nmos (vto=0.45 kp=200u lambda=0.05 cgdo=0.3n cgso=0.3n tox=8n)
+.endl mos_tt
+.lib mos_ss
+.model nch nmos (vto=0.55 kp=150u lambda=0.05 cgdo=0.3n cgso=0.3n tox=8n)
+.endl mos_ss
+"""
+
+
+def _lib_netlist(tmp_path, section="tt"):
+    (tmp_path / "models.lib").write_text(MODELS_LIB)
+    net = tmp_path / f"amp_{section}.sp"
+    net.write_text(f"cs stage\n.lib 'models.lib' {section}\nVdd vdd 0 1.8\nVin g 0 dc 0.9 ac 1\nRd vdd d 5k\n"
+                   "M1 d g 0 0 nch w=10u l=1u\nCl d 0 100f\n")
+    return str(net)
+
+
+def test_a_corner_selects_a_lib_section(tmp_path):
+    base = _lib_netlist(tmp_path)
+    direct = json.loads(run_cli("scan", _lib_netlist(tmp_path, "ss"), "--format", "json").stdout)
+    result = run_cli("scan", base, "--corner", "typ:lib=tt", "--corner", "slow:lib=ss,temp=27",
+                     "--format", "json", "--jobs", "1")
+    assert result.returncode == 0, result.stderr
+    runs = {r["corner"]: r for r in json.loads(result.stdout)["runs"]}
+    # the corner reads section ss exactly as a netlist naming ss itself does
+    assert runs["slow"]["summary"]["octc_hz"] == direct["summary"]["octc_hz"]
+    assert runs["typ"]["summary"]["octc_hz"] != runs["slow"]["summary"]["octc_hz"]
+
+
+def test_lib_corners_from_the_settings_file(tmp_path):
+    base = _lib_netlist(tmp_path)
+    (tmp_path / "tauscan.toml").write_text('[corners]\nslow = { lib = "ss", temp = 100 }\nfast = { lib = "tt" }\n')
+    result = run_cli("check", base, "--format", "json", "--jobs", "1")
+    assert result.returncode in (0, 1), result.stderr
+    assert [r["corner"] for r in json.loads(result.stdout)["runs"]] == ["slow", "fast"]
+
+
+def test_lib_corner_errors(tmp_path):
+    base = _lib_netlist(tmp_path)
+    missing = run_cli("scan", base, "--corner", "x:lib=ff")
+    assert missing.returncode == 2
+    assert "section 'ff'" in missing.stderr and "Traceback" not in missing.stderr
+    plain = tmp_path / "plain.sp"
+    plain.write_text("rc\nVin a 0 dc 0 ac 1\nR1 a b 1k\nC1 b 0 1p\n")
+    nolib = run_cli("scan", str(plain), "--corner", "x:lib=ss")
+    assert nolib.returncode == 2 and "no '.lib FILE SECTION' card" in nolib.stderr
+    bad = run_cli("scan", base, "--corner", "x:lib=1bad")
+    assert bad.returncode == 2 and "not a .lib section name" in bad.stderr

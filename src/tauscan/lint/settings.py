@@ -141,7 +141,7 @@ def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
 
 
 def _corners(table, path: str, line: int | None) -> tuple:
-    """``[corners]`` with one sub-table per corner: ``slow = { vdd = 1.62, temp = 125 }``."""
+    """``[corners]`` with one sub-table per corner: ``slow = { vdd = 1.62, temp = 125, lib = "ss" }``."""
     from tauscan.corners import Corner
 
     if not isinstance(table, dict):
@@ -150,14 +150,19 @@ def _corners(table, path: str, line: int | None) -> tuple:
     for name, body in table.items():
         if not isinstance(body, dict) or not body:
             raise SettingsError(f"corner {name!r} must be a table of PARAM = value", path, line)
-        params, temp = {}, None
+        params, temp, lib = {}, None, None
         for key, raw in body.items():
+            if key.lower() == "lib":
+                from tauscan.corners import check_section
+
+                lib = check_section(str(raw), f"corner {name}", path, line)
+                continue
             value = _number(raw, f"corner {name}: {key}", path, line)
             if key.lower() == "temp":
                 temp = value
             else:
                 params[key.lower()] = value
-        out.append(Corner(name.lower(), params, temp))
+        out.append(Corner(name.lower(), params, temp, lib))
     return tuple(out)
 
 

@@ -14,11 +14,13 @@ from tauscan.reader.flatten import flatten
 from tauscan.reader.loader import load
 
 
-def read_netlist(path: str, params: dict[str, float] | None = None, progress=None) -> Circuit:
+def read_netlist(path: str, params: dict[str, float] | None = None, progress=None,
+                 lib_section: str | None = None) -> Circuit:
     """Read ``path`` (and its includes) into a flat circuit.
 
     ``params`` overrides global ``.param`` values (as ``--param`` does); ``progress(done,
-    total)`` hears how many bytes of the file have been read.  The file is read a chunk at
+    total)`` hears how many bytes of the file have been read; ``lib_section`` (a corner's)
+    replaces the section of every ``.lib FILE SECTION`` card whose file has one of that name.  The file is read a chunk at
     a time: its text is never held whole.
     """
     # Reading makes millions of small tuples and no reference cycles; the cyclic
@@ -26,7 +28,7 @@ def read_netlist(path: str, params: dict[str, float] | None = None, progress=Non
     was_enabled = gc.isenabled()
     gc.disable()
     try:
-        return flatten(load(path, progress), params)
+        return flatten(load(path, progress, lib_section), params)
     finally:
         if was_enabled:
             gc.enable()

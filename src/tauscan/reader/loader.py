@@ -76,11 +76,19 @@ def _filename(f: Field) -> str | None:
 class Loader:
     """Reads a netlist and the files it includes into a :class:`Netlist`."""
 
-    def __init__(self, path: str, progress=None) -> None:
+    def __init__(self, path: str, progress=None, lib_section: str | None = None) -> None:
         self.path = path
         self.progress = progress
+        #: a corner's section: replaces the section of every ``.lib FILE SECTION`` card whose
+        #: file has a section of that name
+        self.lib_section = lib_section.lower() if lib_section else None
+        self.lib_cards = 0
+        self.lib_used = False
+        self.lib_depth = 0  # how many '.lib' sections the current card is inside
         self.stack: list[Definition] = []
-        self.include_chain: list[str] = []
+        # (real path, section or None) of every file being read: a library's sections may
+        # select other sections of the same file, but never themselves
+        self.include_chain: list[tuple[str, str | None]] = []
         self.netlist: Netlist | None = None
 
     def load(self) -> Netlist:
@@ -90,7 +98,7 @@ class Loader:
         top = Definition("", [], None, None)
         self.netlist = Netlist(title, self.path, top)
         self.stack = [top]
-        self.include_chain = [os.path.realpath(self.path)]
+        self.include_chain = [(os.path.realpath(self.path), None)]
         self._cards(cards)
         if len(self.stack) > 1:
             open_def = self.stack[-1]
@@ -98,6 +106,10 @@ class Loader:
             raise open_def.card.error(HierarchyError, f"'.subckt {open_def.name}' is never closed by '.ends'", 0)
         if not top.elements and not top.subckts and not top.models:
             raise NetlistSyntaxError("the netlist has no elements", self.path, 1, 1, title)
+        if self.lib_section and not self.lib_used:
+            where = (f"none of its {self.lib_cards} '.lib FILE SECTION' cards reads a file with that section"
+                     if self.lib_cards else "it has no '.lib FILE SECTION' card")
+            raise IncludeError(f"the corner selects .lib section {self.lib_section!r}, but {where}", self.path)
         return self.netlist
 
     # -- card dispatch ---------------------------------------------------------
@@ -220,7 +232,7 @@ class Loader:
         path = os.path.normpath(os.path.join(base, os.path.expanduser(raw)))
         real = os.path.realpath(path)
         what = "'.lib'" if section else "'.include'"
-        if real in self.include_chain:
+        if section is None and any(r == real for r, _ in self.include_chain):
             raise card.error(IncludeError, f"{what} of {path} includes itself (an include cycle)", name_field[2])
         if len(self.include_chain) >= MAX_INCLUDE_DEPTH:
             raise card.error(IncludeError, f"includes nested deeper than {MAX_INCLUDE_DEPTH}", name_field[2])
@@ -232,12 +244,23 @@ class Loader:
             raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field[2]) from None
         _, cards = logical_lines(lines, path, has_title=False)
         if section is not None:
+            # only the netlist's own '.lib' cards: a library's sections select each other
+            if self.lib_depth == 0:
+                self.lib_cards += 1
+                if self.lib_section and self.lib_section in _section_names(cards):
+                    section = self.lib_section
+                    self.lib_used = True
+            if (real, section) in self.include_chain:
+                raise card.error(IncludeError, f"{what} section {section!r} of {path} selects itself (an include cycle)",
+                                 name_field[2])
             cards = self._section(cards, section, card, name_field, path)
-        self.include_chain.append(real)
+        self.include_chain.append((real, section))
+        self.lib_depth += section is not None
         try:
             self._cards(cards)
         finally:
             self.include_chain.pop()
+            self.lib_depth -= section is not None
 
     @staticmethod
     def _section(cards: list[Card], section: str, card: Card, name_field: Field, path: str) -> list[Card]:
@@ -266,7 +289,16 @@ class Loader:
         return chosen
 
 
-def load(path: str, progress=None) -> Netlist:
+def _section_names(cards: list[Card]) -> set[str]:
+    names = set()
+    for c in cards:
+        words = c.text.split()
+        if len(words) == 2 and words[0].lower() == ".lib":
+            names.add(words[1].lower())
+    return names
+
+
+def load(path: str, progress=None, lib_section: str | None = None) -> Netlist:
     """Read ``path`` and its includes into a :class:`Netlist` (``progress(done, total)``:
-    bytes of the top file read so far)."""
-    return Loader(path, progress).load()
+    bytes of the top file read so far; ``lib_section``: a corner's ``.lib`` section)."""
+    return Loader(path, progress, lib_section).load()

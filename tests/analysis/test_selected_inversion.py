@@ -61,16 +61,17 @@ def test_selected_matches_dense_inverse(kind, small_limit, monkeypatch):
     assert_allclose(z, expected, rtol=1e-9, atol=1e-12 * np.abs(dense).max())
 
 
-def test_both_paths_are_taken(monkeypatch):
+def test_the_default_limit_mixes_both_paths_on_a_mesh(monkeypatch):
+    """The mixed runs above take both the scalar and the block path on a mesh."""
     seen = []
-    real = zentries._takahashi_small
+    real = zentries._recurrences
 
-    def spy(*args):
-        seen.append("small")
-        return real(*args)
+    def spy(n, sizes, *rest):
+        seen.append(sizes.copy())
+        return real(n, sizes, *rest)
 
-    monkeypatch.setattr(zentries, "_takahashi_small", spy)
-    rows = np.arange(10)
-    zentries.selected(_network(100, "chain", 1), rows, rows)
-    zentries.selected(_network(400, "mesh", 1), rows, rows)  # a mesh fills beyond SMALL_STRUCT rows
-    assert seen == ["small"]
+    monkeypatch.setattr(zentries, "_recurrences", spy)
+    g = _network(144, "mesh", seed=len("mesh") + zentries.SMALL_STRUCT)
+    zentries.selected(g, np.arange(10), np.arange(10))
+    (sizes,) = seen
+    assert sizes.min() <= zentries.SMALL_STRUCT < sizes.max()

@@ -32,8 +32,6 @@ from tauscan.errors import CircuitError
 
 #: Above this many distinct columns the selected inversion is used when it applies.
 SELECTED_MIN_COLUMNS = 2000
-#: Columns whose pattern positions are looked up together in the selected inversion.
-TAKAHASHI_CHUNK = 2048
 #: Longest column structure for which the selected inversion runs on Python floats.
 SMALL_STRUCT = 6
 #: Largest dense right-hand side block (entries) per batch of column solves.
@@ -107,22 +105,51 @@ def selected(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray) -> np.ndarray
     ac = a.tocoo()
     pa = lu.perm_r[ac.row].astype(np.int64)
     qa = lu.perm_c[ac.col].astype(np.int64)
-    w_keys, w_vals = _takahashi(lu, n, np.maximum(pa, qa), np.minimum(pa, qa))
+    w = _takahashi(lu, n, np.maximum(pa, qa), np.minimum(pa, qa))
     # Pr A Pc = L U  ->  A^-1 = Pc W Pr  ->  Z[i, j] = W[perm_c[i], perm_r[j]]
-    wi = lu.perm_c[r]
-    wj = lu.perm_r[c]
-    keys = wi.astype(np.int64) * n + wj
-    pos = np.searchsorted(w_keys, keys)
-    pos = np.minimum(pos, len(w_keys) - 1)
-    if not np.array_equal(w_keys[pos], keys):
-        raise _NotClosed()
-    out[valid] = w_vals[pos]
+    out[valid] = w.lookup(lu.perm_c[r].astype(np.int64), lu.perm_r[c].astype(np.int64))
     return out
 
 
-def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+class _Inverse:
+    """Entries of W = (L U)^-1 on the closed pattern, stored along the pattern's columns:
+    for entry e (row ``prow[e] > j`` of column j), ``lower[e] = W[prow[e], j]`` and
+    ``upper[e] = W[j, prow[e]]``; ``diag[j] = W[j, j]``.  Entries are sorted by
+    ``j * n + row`` (``ekeys``), so one search finds any of them."""
+
+    def __init__(self, n: int, ekeys: np.ndarray, lower: np.ndarray, upper: np.ndarray, diag: np.ndarray) -> None:
+        self.n, self.ekeys, self.lower, self.upper, self.diag = n, ekeys, lower, upper, diag
+
+    def entries(self, col: np.ndarray, row: np.ndarray) -> np.ndarray:
+        """Entry numbers of pattern positions (row > col), or _NotClosed."""
+        want = col * self.n + row
+        if not len(want):
+            return np.zeros(0, dtype=np.int64)
+        if not len(self.ekeys):
+            raise _NotClosed()
+        e = np.minimum(np.searchsorted(self.ekeys, want), len(self.ekeys) - 1)
+        if not np.array_equal(self.ekeys[e], want):
+            raise _NotClosed()
+        return e
+
+    def lookup(self, i: np.ndarray, j: np.ndarray) -> np.ndarray:
+        out = np.empty(len(i))
+        d = i == j
+        out[d] = self.diag[i[d]]
+        lo = i > j  # W[i, j] below the diagonal: column j, row i
+        out[lo] = self.lower[self.entries(j[lo], i[lo])]
+        up = i < j  # above: W[i, j] = upper entry of column i, row j
+        out[up] = self.upper[self.entries(i[up], j[up])]
+        return out
+
+
+def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> _Inverse:
     """W = (L U)^-1 on the closed pattern of the factors and of the permuted matrix
-    (``a_rows >= a_cols``: its entries folded below the diagonal)."""
+    (``a_rows >= a_cols``: its entries folded below the diagonal).
+
+    Short columns (at most :data:`SMALL_STRUCT` rows: chains and trees of stages) run on
+    scalars, long ones (meshes fill) on numpy blocks; the positions every column reads are
+    found for all columns at once beforehand."""
     lower = lu.L.tocsc()
     upper = lu.U.tocsr()
     diag = upper.diagonal()
@@ -143,143 +170,81 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> tuple[np.n
     sizes = np.fromiter((len(x) for x in structs), dtype=np.int64, count=n)
     pptr = np.zeros(n + 1, dtype=np.int64)
     pptr[1:] = np.cumsum(sizes)
-    prow = np.fromiter(itertools.chain.from_iterable(structs), dtype=np.int64, count=int(pptr[-1]))
-    # the pattern of W: lower, its transpose, the diagonal; sorted keys row*n + col
+    total = int(pptr[-1])
+    prow = np.fromiter(itertools.chain.from_iterable(structs), dtype=np.int64, count=total)
+    del structs
     cols_of = np.repeat(np.arange(n, dtype=np.int64), sizes)
-    keys = np.unique(np.concatenate([prow * n + cols_of, cols_of * n + prow, np.arange(n, dtype=np.int64) * (n + 1)]))
-    vals = np.zeros(len(keys))
-    lower.sort_indices()
-    upper.sort_indices()
-    l_ptr, l_idx, l_val = lower.indptr, lower.indices, lower.data
-    u_ptr, u_idx, u_val = upper.indptr, upper.indices, upper.data
-    if n and int(sizes.max()) <= SMALL_STRUCT:
-        return keys, _takahashi_small(n, sizes, pptr, prow, cols_of, keys, diag, lower, upper)
-
-    def positions(k: np.ndarray) -> np.ndarray:
-        p = np.searchsorted(keys, k)
-        p = np.minimum(p, len(keys) - 1)
-        if not np.array_equal(keys[p], k):
-            raise _NotClosed()
-        return p
-
-    for top in range(n - 1, -1, -TAKAHASHI_CHUNK):
-        columns = range(top, max(top - TAKAHASHI_CHUNK, -1), -1)
-        # the positions every column of this chunk reads and writes, found in one search
-        wanted = []
-        for j in columns:
-            sj = prow[pptr[j] : pptr[j + 1]]
-            wanted.append((sj[:, None] * n + sj[None, :]).ravel())
-            wanted.append(sj * n + j)
-            wanted.append(j * n + sj)
-            wanted.append(np.array([j * (n + 1)], dtype=np.int64))
-        found = positions(np.concatenate(wanted))
-        at = 0
-        for j in columns:
-            s = prow[pptr[j] : pptr[j + 1]]
-            m_s = len(s)
-            block_pos = found[at : at + m_s * m_s]
-            at += m_s * m_s
-            col_pos = found[at : at + m_s]
-            at += m_s
-            row_pos = found[at : at + m_s]
-            at += m_s
-            diag_pos = found[at]
-            at += 1
-            djj = diag[j]
-            if m_s == 0:
-                vals[diag_pos] = 1.0 / djj
-                continue
-            # L[s, j] and U~[j, s] as dense vectors over s (0 where not stored)
-            lv = np.zeros(m_s)
-            seg = slice(l_ptr[j], l_ptr[j + 1])
-            li, lx = l_idx[seg], l_val[seg]
-            m = li > j
-            lv[np.searchsorted(s, li[m])] = lx[m]
-            uv = np.zeros(m_s)
-            seg = slice(u_ptr[j], u_ptr[j + 1])
-            ui, ux = u_idx[seg], u_val[seg]
-            m = ui > j
-            uv[np.searchsorted(s, ui[m])] = ux[m] / djj
-            wss = vals[block_pos].reshape(m_s, m_s)
-            col = -(wss @ lv)  # W[s, j]
-            vals[col_pos] = col
-            vals[row_pos] = -(uv @ wss)  # W[j, s]
-            vals[diag_pos] = 1.0 / djj - uv @ col
-    return keys, vals
-
-
-def _takahashi_small(n: int, sizes: np.ndarray, pptr: np.ndarray, prow: np.ndarray, cols_of: np.ndarray,
-                     keys: np.ndarray, diag: np.ndarray, lower, upper) -> np.ndarray:
-    """The same recurrences on Python floats, for patterns whose every column is short
-    (chains and trees of stages), where per-column numpy calls would cost more than the
-    work.  Every position and factor entry is looked up beforehand in a few vector calls."""
-
-    def positions(k: np.ndarray) -> list[int]:
-        p = np.minimum(np.searchsorted(keys, k), len(keys) - 1)
-        if not np.array_equal(keys[p], k):
-            raise _NotClosed()
-        return p.tolist()
-
-    # the m x m block W[s, s] of every column, row-major, as positions
-    per_entry = sizes[cols_of]
-    total = int(per_entry.sum())
-    first = np.repeat(np.arange(len(prow), dtype=np.int64), per_entry)
-    block_start = np.repeat(np.cumsum(per_entry) - per_entry, per_entry)
-    second = np.repeat(pptr[:-1][cols_of], per_entry) + (np.arange(total, dtype=np.int64) - block_start)
-    pair_pos = positions(prow[first] * n + prow[second])
+    w = _Inverse(n, cols_of * n + prow, np.zeros(total), np.zeros(total), np.zeros(n))
+    # every pair a < b of one column's rows: W[s_a, s_b] is the upper entry (column s_a, row
+    # s_b), W[s_b, s_a] the lower one; pairs listed column by column, a then b
+    offset = np.arange(total, dtype=np.int64) - pptr[cols_of]  # index a of each entry in its column
+    partners = sizes[cols_of] - 1 - offset
+    first = np.repeat(np.arange(total, dtype=np.int64), partners)
+    group_start = np.repeat(np.cumsum(partners) - partners, partners)
+    second = first + 1 + (np.arange(len(first), dtype=np.int64) - group_start)
+    pair_e = w.entries(prow[first], prow[second])
+    del first, second, group_start, partners, offset
     pair_ptr = np.zeros(n + 1, dtype=np.int64)
-    pair_ptr[1:] = np.cumsum(sizes * sizes)
-    col_pos = positions(prow * n + cols_of)
-    row_pos = positions(cols_of * n + prow)
-    diag_pos = positions(np.arange(n, dtype=np.int64) * (n + 1))
-    lv = np.asarray(lower[prow, cols_of]).ravel().tolist()  # L[s, j]
-    uv = (np.asarray(upper[cols_of, prow]).ravel() / diag[cols_of]).tolist()  # U~[j, s]
-    d = diag.tolist()
+    pair_ptr[1:] = np.cumsum(sizes * (sizes - 1) // 2)
+    lv = np.asarray(lower[prow, cols_of]).ravel()  # L[s, j]
+    uv = np.asarray(upper[cols_of, prow]).ravel() / diag[cols_of]  # U~[j, s] = U[j, s] / D[j]
+    _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w)
+    return w
+
+
+def _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w: _Inverse) -> None:
+    wl, wu, wd = w.lower, w.upper, w.diag
+    size = sizes.tolist()
     ptr = pptr.tolist()
     pp = pair_ptr.tolist()
-    size = sizes.tolist()
-    vals = [0.0] * len(keys)
+    d = diag.tolist()
+    small = SMALL_STRUCT
+    rows_l = prow.tolist()
+    lv_l, uv_l = lv.tolist(), uv.tolist()
+    # the one pair of each two-row column (scalar path); other columns read pair_e in blocks
+    first_pair = pair_e[np.minimum(pair_ptr[:-1], max(len(pair_e) - 1, 0))] if len(pair_e) else np.zeros(n, dtype=np.int64)
+    pe_l = np.where(sizes == 2, first_pair, 0).tolist()
+    triu: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     for j in range(n - 1, -1, -1):
         m = size[j]
-        b0 = ptr[j]
+        e0 = ptr[j]
         if m == 0:
-            vals[diag_pos[j]] = 1.0 / d[j]
-        elif m == 1:
-            w = vals[pair_pos[pp[j]]]
-            c = -w * lv[b0]
-            vals[col_pos[b0]] = c
-            vals[row_pos[b0]] = -uv[b0] * w
-            vals[diag_pos[j]] = 1.0 / d[j] - uv[b0] * c
-        elif m == 2:
-            q = pp[j]
-            w00, w01, w10, w11 = vals[pair_pos[q]], vals[pair_pos[q + 1]], vals[pair_pos[q + 2]], vals[pair_pos[q + 3]]
-            l0, l1, u0, u1 = lv[b0], lv[b0 + 1], uv[b0], uv[b0 + 1]
+            wd[j] = 1.0 / d[j]
+        elif m == 1 and small >= 1:
+            a = rows_l[e0]
+            waa = wd[a]
+            c = -waa * lv_l[e0]
+            wl[e0] = c
+            wu[e0] = -uv_l[e0] * waa
+            wd[j] = 1.0 / d[j] - uv_l[e0] * c
+        elif m == 2 and small >= 2:
+            q = pe_l[j]
+            w00, w11 = wd[rows_l[e0]], wd[rows_l[e0 + 1]]
+            w01, w10 = wu[q], wl[q]
+            l0, l1, u0, u1 = lv_l[e0], lv_l[e0 + 1], uv_l[e0], uv_l[e0 + 1]
             c0 = -(w00 * l0 + w01 * l1)
             c1 = -(w10 * l0 + w11 * l1)
-            vals[col_pos[b0]] = c0
-            vals[col_pos[b0 + 1]] = c1
-            vals[row_pos[b0]] = -(u0 * w00 + u1 * w10)
-            vals[row_pos[b0 + 1]] = -(u0 * w01 + u1 * w11)
-            vals[diag_pos[j]] = 1.0 / d[j] - (u0 * c0 + u1 * c1)
+            wl[e0] = c0
+            wl[e0 + 1] = c1
+            wu[e0] = -(u0 * w00 + u1 * w10)
+            wu[e0 + 1] = -(u0 * w01 + u1 * w11)
+            wd[j] = 1.0 / d[j] - (u0 * c0 + u1 * c1)
         else:
-            q = pp[j]
-            w = [[vals[pair_pos[q + a * m + b]] for b in range(m)] for a in range(m)]
-            ls = lv[b0 : b0 + m]
-            us = uv[b0 : b0 + m]
-            diag_sum = 0.0
-            for a in range(m):
-                row = w[a]
-                c = 0.0
-                for b in range(m):
-                    c -= row[b] * ls[b]
-                vals[col_pos[b0 + a]] = c
-                diag_sum += us[a] * c
-                r = 0.0
-                for b in range(m):
-                    r -= us[b] * w[b][a]
-                vals[row_pos[b0 + a]] = r
-            vals[diag_pos[j]] = 1.0 / d[j] - diag_sum
-    return np.array(vals)
+            if m not in triu:
+                triu[m] = np.triu_indices(m, 1)
+            iu, ju = triu[m]
+            pe = pair_e[pp[j] : pp[j + 1]]
+            s = prow[e0 : e0 + m]
+            block = np.empty((m, m))
+            block[iu, ju] = wu[pe]  # W[s_a, s_b], a < b
+            block[ju, iu] = wl[pe]  # W[s_b, s_a]
+            block.flat[:: m + 1] = wd[s]
+            lj = lv[e0 : e0 + m]
+            uj = uv[e0 : e0 + m]
+            col = -(block @ lj)  # W[s, j]
+            wl[e0 : e0 + m] = col
+            wu[e0 : e0 + m] = -(uj @ block)  # W[j, s]
+            wd[j] = 1.0 / d[j] - uj @ col
 
 
 def _symbolic_closure(seed: sp.csc_matrix, n: int) -> list[list[int]]:

@@ -56,6 +56,10 @@ def _add_batch_options(p: argparse.ArgumentParser) -> None:
                    help="scan once per corner: parameter overrides and temp=C (repeatable)")
     p.add_argument("--jobs", type=_positive_int, default=0, metavar="N",
                    help="worker processes for several netlists or corners (default: the number of cores)")
+    p.add_argument("--cluster", metavar="ADDRESS",
+                   help="send the scans to a Dask distributed scheduler (tcp://host:8786; needs the 'cluster' extra)")
+    p.add_argument("--cluster-timeout", type=float, default=15.0, metavar="S",
+                   help="seconds to wait for the scheduler (default 15)")
 
 
 def _add_analysis_options(p: argparse.ArgumentParser) -> None:
@@ -133,10 +137,16 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
     return requests
 
 
-def _run_all(requests, jobs: int = 1):
-    """Scan every request, in worker processes when there are several and jobs allow."""
+def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0):
+    """Scan every request: on a Dask cluster when one is named, else in worker processes
+    when there are several and jobs allow."""
     from tauscan.pipeline import scan, scan_in_worker
     from tauscan.report.progress import StageProgress
+
+    if cluster:
+        from tauscan.cluster import run_on_cluster
+
+        return run_on_cluster(requests, cluster, timeout)
 
     workers = jobs or os.cpu_count() or 1
     if len(requests) > 1 and workers > 1:
@@ -151,7 +161,7 @@ def _run_all(requests, jobs: int = 1):
 def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report.output import write_bytes, write_text
 
-    runs = _run_all(_requests(args, [args.netlist]), args.jobs)
+    runs = _run_all(_requests(args, [args.netlist]), args.jobs, args.cluster, args.cluster_timeout)
     top = args.top or None
     fmt = args.format
     if fmt == "table" and args.output is None:
@@ -194,7 +204,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from tauscan.lint.gate import exit_code
     from tauscan.report.output import write_text
 
-    runs = _run_all(_requests(args, args.netlist), args.jobs)
+    runs = _run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout)
     code = max(exit_code(r.lint.findings, r.settings.fail_on) for r in runs)
     if args.format == "table":
         from tauscan.report import check_table

@@ -58,3 +58,16 @@ def test_reading_never_holds_the_whole_text(tmp_path, monkeypatch):
     assert count == 400_001
     # a chunk in bytes, its text and its list of lines: a few chunks, far below the file
     assert peak < 8 * (1 << 20) < size / 2
+
+
+def test_progress_hears_every_chunk(tmp_path, monkeypatch):
+    monkeypatch.setattr(lines_mod, "CHUNK_BYTES", 1000)
+    path = tmp_path / "p.sp"
+    path.write_text("title\n" + "".join(f"R{k} a{k} b{k} 1k\n" for k in range(2000)))
+    heard = []
+    circuit = read_netlist(str(path), progress=lambda done, total: heard.append((done, total)))
+    assert len(circuit.elements) == 2000
+    size = path.stat().st_size
+    assert len(heard) >= size // 1000 - 1
+    assert all(total == size for _, total in heard)
+    assert [d for d, _ in heard] == sorted(d for d, _ in heard) and heard[-1][0] == size

@@ -29,7 +29,7 @@ def stage_chain(lines_wanted: int, segments: int = 4) -> str:
         gate = f"g{k}"
         drain = f"d{k}"
         out.append(f"M{k} {drain} {gate} 0 0 nch w=4u l=0.5u ad=2p as=2p pd=5u ps=5u")
-        out.append(f"Rl{k} vdd {drain} 3.3k")  # a gain of about -0.9: thousands of cascaded stages stay finite
+        out.append(f"Rl{k} vdd {drain} 1.8k")  # a gain of about -0.5: thousands of cascaded stages stay finite
         out.append(f"Cd{k} {drain} 0 2f")
         prev = drain
         for s in range(segments):
@@ -64,7 +64,7 @@ def stage_mesh(lines_wanted: int, segments: int = 2) -> str:
         for j in range(side):
             k = f"{i}_{j}"
             out.append(f"M{k} d{k} g{k} 0 0 nch w=4u l=0.5u ad=2p as=2p pd=5u ps=5u")
-            out.append(f"Rl{k} vdd d{k} 3.3k")  # a gain of about -0.9: thousands of cascaded stages stay finite
+            out.append(f"Rl{k} vdd d{k} 1.8k")  # a gain of about -0.5: thousands of cascaded stages stay finite
             out.append(f"Cd{k} d{k} 0 2f")
             out.append(f"Rb{k} g{k} bias 200k")
             for tag, (ni, nj) in (("r", (i, j + 1)), ("u", (i + 1, j))):

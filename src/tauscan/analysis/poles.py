@@ -31,6 +31,9 @@ F3DB_STEP = 8.0
 #: |H(0)| below this fraction of the highest |H| means no DC path: the -3 dB point is then
 #: taken from the mid-band peak.
 MID_BAND_RATIO = 1e-9
+#: Up to this many unknowns a complex factorization that fails on diagonal pivots is redone
+#: with threshold pivoting; above it the frequency is reported as singular.
+PIVOTING_LIMIT = 20_000
 #: Below this many unknowns ARPACK has no room for its Krylov space: always dense.
 SPARSE_MIN = 40
 #: Number of dominant poles sought in a large circuit.
@@ -255,6 +258,10 @@ class ComplexSolver:
         try:
             lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
         except RuntimeError:
+            if matrix.shape[0] > PIVOTING_LIMIT:
+                # threshold pivoting on a large circuit can fill without bound (a 5e5-line
+                # chain went past 20 GB): report this frequency as singular instead
+                raise
             lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
         return Factored(lu, s, matrix)
 

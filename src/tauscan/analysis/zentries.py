@@ -175,17 +175,19 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> _Inverse:
     del structs
     cols_of = np.repeat(np.arange(n, dtype=np.int64), sizes)
     w = _Inverse(n, cols_of * n + prow, np.zeros(total), np.zeros(total), np.zeros(n))
-    # every pair a < b of one column's rows: W[s_a, s_b] is the upper entry (column s_a, row
-    # s_b), W[s_b, s_a] the lower one; pairs listed column by column, a then b
+    # for the short columns, every pair a < b of the column's rows: W[s_a, s_b] is the upper
+    # entry (column s_a, row s_b), W[s_b, s_a] the lower one; pairs column by column, a then b
+    # (long columns read their block from their parent's instead, see _recurrences)
+    short = sizes <= SMALL_STRUCT
     offset = np.arange(total, dtype=np.int64) - pptr[cols_of]  # index a of each entry in its column
-    partners = sizes[cols_of] - 1 - offset
+    partners = np.where(short[cols_of], sizes[cols_of] - 1 - offset, 0)
     first = np.repeat(np.arange(total, dtype=np.int64), partners)
     group_start = np.repeat(np.cumsum(partners) - partners, partners)
     second = first + 1 + (np.arange(len(first), dtype=np.int64) - group_start)
     pair_e = w.entries(prow[first], prow[second])
     del first, second, group_start, partners, offset
     pair_ptr = np.zeros(n + 1, dtype=np.int64)
-    pair_ptr[1:] = np.cumsum(sizes * (sizes - 1) // 2)
+    pair_ptr[1:] = np.cumsum(np.where(short, sizes * (sizes - 1) // 2, 0))
     lv = np.asarray(lower[prow, cols_of]).ravel()  # L[s, j]
     uv = np.asarray(upper[cols_of, prow]).ravel() / diag[cols_of]  # U~[j, s] = U[j, s] / D[j]
     _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w)
@@ -193,6 +195,11 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> _Inverse:
 
 
 def _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w: _Inverse) -> None:
+    """The recurrences from the last column to the first.
+
+    A long column j reads W[s, s] (s: its rows, s[0] its parent p in the elimination tree)
+    from p's full block over [p] + rows(p), since s[1:] lies within rows(p): a gather, no
+    search.  Full blocks are kept only while a long child still needs them."""
     wl, wu, wd = w.lower, w.upper, w.diag
     size = sizes.tolist()
     ptr = pptr.tolist()
@@ -201,10 +208,40 @@ def _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w: _Inver
     small = SMALL_STRUCT
     rows_l = prow.tolist()
     lv_l, uv_l = lv.tolist(), uv.tolist()
-    # the one pair of each two-row column (scalar path); other columns read pair_e in blocks
+    # the one pair of each two-row column (scalar path)
     first_pair = pair_e[np.minimum(pair_ptr[:-1], max(len(pair_e) - 1, 0))] if len(pair_e) else np.zeros(n, dtype=np.int64)
     pe_l = np.where(sizes == 2, first_pair, 0).tolist()
     triu: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    # how many long columns still need each column's full block
+    long_cols = np.flatnonzero(sizes > small)
+    waiting = np.bincount(prow[pptr[long_cols]], minlength=n).tolist() if len(long_cols) else [0] * n
+    full: dict[int, np.ndarray] = {}
+
+    def short_block(j: int, m: int, e0: int) -> np.ndarray:
+        if m not in triu:
+            triu[m] = np.triu_indices(m, 1)
+        iu, ju = triu[m]
+        pe = pair_e[pp[j] : pp[j + 1]]
+        block = np.empty((m, m))
+        block[iu, ju] = wu[pe]  # W[s_a, s_b], a < b
+        block[ju, iu] = wl[pe]  # W[s_b, s_a]
+        block.flat[:: m + 1] = wd[prow[e0 : e0 + m]]
+        return block
+
+    def full_block(p: int) -> np.ndarray:
+        found = full.get(p)
+        if found is not None:
+            return found
+        m, e0 = size[p], ptr[p]  # a short parent: assemble its block now
+        f = np.empty((m + 1, m + 1))
+        f[0, 0] = wd[p]
+        f[0, 1:] = wu[e0 : e0 + m]
+        f[1:, 0] = wl[e0 : e0 + m]
+        if m:
+            f[1:, 1:] = short_block(p, m, e0)
+        full[p] = f
+        return f
+
     for j in range(n - 1, -1, -1):
         m = size[j]
         e0 = ptr[j]
@@ -230,21 +267,35 @@ def _recurrences(n, sizes, pptr, pair_ptr, pair_e, prow, lv, uv, diag, w: _Inver
             wu[e0 + 1] = -(u0 * w01 + u1 * w11)
             wd[j] = 1.0 / d[j] - (u0 * c0 + u1 * c1)
         else:
-            if m not in triu:
-                triu[m] = np.triu_indices(m, 1)
-            iu, ju = triu[m]
-            pe = pair_e[pp[j] : pp[j + 1]]
             s = prow[e0 : e0 + m]
-            block = np.empty((m, m))
-            block[iu, ju] = wu[pe]  # W[s_a, s_b], a < b
-            block[ju, iu] = wl[pe]  # W[s_b, s_a]
-            block.flat[:: m + 1] = wd[s]
+            if m <= small:
+                block = short_block(j, m, e0)
+            else:
+                p = rows_l[e0]
+                fp = full_block(p)
+                rows_p = prow[ptr[p] : ptr[p] + size[p]]
+                at = np.searchsorted(rows_p, s[1:])
+                if len(at) and (at.max() >= len(rows_p) or not np.array_equal(rows_p[at], s[1:])):
+                    raise _NotClosed()
+                idx = np.concatenate(([0], at + 1))
+                block = fp[np.ix_(idx, idx)]
+                waiting[p] -= 1
+                if waiting[p] == 0:
+                    del full[p]
             lj = lv[e0 : e0 + m]
             uj = uv[e0 : e0 + m]
             col = -(block @ lj)  # W[s, j]
+            row = -(uj @ block)  # W[j, s]
             wl[e0 : e0 + m] = col
-            wu[e0 : e0 + m] = -(uj @ block)  # W[j, s]
+            wu[e0 : e0 + m] = row
             wd[j] = 1.0 / d[j] - uj @ col
+            if waiting[j]:
+                f = np.empty((m + 1, m + 1))
+                f[0, 0] = wd[j]
+                f[0, 1:] = row
+                f[1:, 0] = col
+                f[1:, 1:] = block
+                full[j] = f
 
 
 def _symbolic_closure(seed: sp.csc_matrix, n: int) -> list[list[int]]:

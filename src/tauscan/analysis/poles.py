@@ -40,7 +40,7 @@ SPARSE_MIN = 40
 SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
 #: ncv sparse solves, so these bound the time spent on clustered poles (many equal stages).
-ARPACK_RESTARTS = (40, 8)
+ARPACK_RESTARTS = (40, 4)
 #: An eigenvalue of G^-1 C smaller than this fraction of the largest is an infinite pole.
 LAMBDA_FLOOR = 1e-13
 

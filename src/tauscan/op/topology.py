@@ -2,6 +2,10 @@
 
 from __future__ import annotations
 
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+
 from tauscan.circuit import GROUND, Circuit, Element
 from tauscan.errors import CircuitError
 
@@ -36,14 +40,24 @@ class _UnionFind:
 
 def floating_nodes(circuit: Circuit) -> list[str]:
     """Nodes with no DC path to ground (through resistors, sources, inductors, device channels and junctions)."""
-    uf = _UnionFind()
-    uf.find(GROUND)
+    names = circuit.nodes()
+    index = {n: i for i, n in enumerate(names)}
+    a: list[int] = []
+    b: list[int] = []
     for e in circuit.elements:
-        for a, b in _DC_PAIRS.get(e.kind, []):
-            if a < len(e.nodes) and b < len(e.nodes):
-                uf.union(e.nodes[a], e.nodes[b])
-    ground = uf.find(GROUND)
-    return [n for n in circuit.nodes() if n != GROUND and uf.find(n) != ground]
+        pairs = _DC_PAIRS.get(e.kind)
+        if pairs is None:
+            continue
+        nodes = e.nodes
+        for p, q in pairs:
+            if q < len(nodes):
+                a.append(index[nodes[p]])
+                b.append(index[nodes[q]])
+    n = len(names)
+    graph = sp.csr_matrix((np.ones(len(a)), (np.array(a, dtype=np.int64), np.array(b, dtype=np.int64))), shape=(n, n))
+    _, labels = connected_components(graph, directed=False)
+    ground = labels[index[GROUND]]
+    return [names[i] for i in np.flatnonzero(labels != ground).tolist()]
 
 
 def check_voltage_loops(circuit: Circuit) -> None:

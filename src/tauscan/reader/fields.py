@@ -20,6 +20,8 @@ else goes through the grammar.
 from __future__ import annotations
 
 import re
+from itertools import accumulate, repeat
+from operator import add
 
 from lark import Token, Tree
 from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
@@ -38,24 +40,42 @@ def fast_fields(text: str) -> list[Field] | None:
     """Fields of a plain element line, or None when the grammar must decide."""
     if not text or _NOT_FAST.search(text) is not None:
         return None
-    if "  " in text or "\t" in text or text[0] == " ":
-        words = [(m.group(), m.start()) for m in _TOKEN.finditer(text)]
-    else:  # single spaces: offsets by counting, no regex
-        words = []
-        pos = 0
-        for word in text.split(" "):
-            if word:
-                words.append((word, pos))
-            pos += len(word) + 1
+    if "  " in text or "\t" in text or text[0] == " " or text[-1] == " ":
+        return _fields_of_words([(m.group(), m.start()) for m in _TOKEN.finditer(text)])
+    # single spaces: the words, their offsets and the tuples are all made by C loops
+    words = text.split(" ")
+    if not words[0][0].isalpha() or "=" in words[0]:
+        return None
+    out: list[Field] = list(zip(repeat("w"), words, accumulate(map(add, map(len, words), repeat(1)), initial=0)))
+    if " ." in text and any(w[0] == "." and _directive_like(w) for w in words):
+        return None
+    if "=" in text:
+        for i, (_, word, pos) in enumerate(out):
+            if "=" in word:
+                field = _param(word, pos)
+                if field is None:
+                    return None
+                out[i] = field
+    return out
+
+
+def _param(word: str, pos: int) -> Field | None:
+    eq = word.find("=")
+    key, value = word[:eq], word[eq + 1 :]
+    if not key or not value or "=" in value or _directive_like(key) or _directive_like(value):
+        return None
+    return ("p", (key.lower(), ("w", value, pos + eq + 1)), pos)
+
+
+def _fields_of_words(words: list[tuple[str, int]]) -> list[Field] | None:
     out: list[Field] = []
     append = out.append
     for word, pos in words:
         if "=" in word:
-            eq = word.find("=")
-            key, value = word[:eq], word[eq + 1 :]
-            if not key or not value or "=" in value or _directive_like(key) or _directive_like(value):
+            field = _param(word, pos)
+            if field is None:
                 return None
-            append(("p", (key.lower(), ("w", value, pos + eq + 1)), pos))
+            append(field)
         elif word[0] == "." and _directive_like(word):
             return None
         else:

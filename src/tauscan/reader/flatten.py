@@ -128,12 +128,18 @@ class Flattener:
             while index < len(elements):
                 name, fields, card = elements[index]
                 index += 1
-                if name[0] == "x":
+                letter = name[0]
+                if letter == "x":
                     child = self._instance(frame, name, fields, card)
                     stack.append((frame, index))
                     stack.append((child, 0))
                     break
-                self._add(self._element(frame, name, fields, card), card)
+                if (letter == "r" or letter == "c") and len(fields) == 4 and fields[1][0] == "w" \
+                        and fields[2][0] == "w" and fields[3][0] == "w":
+                    element = self._two_terminal(frame, letter, name, fields, card)
+                else:
+                    element = self._element(frame, name, fields, card)
+                self._add(element, card)
         return self.circuit
 
     def _settings(self, root: Frame) -> None:
@@ -150,6 +156,20 @@ class Flattener:
                     self.circuit.options[key] = root.value(f, card)
                 except TauscanError:
                     self.circuit.options[key] = str(f[1])
+
+    @staticmethod
+    def _two_terminal(frame: Frame, letter: str, name: str, fields: list[Field], card: Card) -> Element:
+        """``Rname a b value`` / ``Cname a b value``, the bulk of an extracted netlist: what
+        :func:`~tauscan.reader.elements.passive` does for them, without its general cases."""
+        f = fields[3]
+        value = field_value(f, card, frame.scope)
+        if letter == "r" and value == 0:
+            raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", f[2])
+        if letter == "c" and value < 0:
+            raise card.error(NetlistSyntaxError, "negative capacitance", f[2])
+        node = frame.node
+        return Element(frame.prefix + name, letter, (node(fields[1][1]), node(fields[2][1])), value, None, {},
+                       card.file, card.line, None, (), card.comment)
 
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
         pos: list[Field] = []

@@ -75,8 +75,17 @@ def run(argv: Sequence[str] | None = None) -> int:
     return args.handler(args)
 
 
+#: Thread pools of the BLAS libraries behind numpy: one thread each unless the user says
+#: otherwise.  The work is sparse (SuperLU is single-threaded) and small dense blocks, and
+#: spinning BLAS threads in several worker processes (--jobs) starved one another: a
+#: 16-job batch on 2 cores ran 1.2x faster than serial instead of 1.9x.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the console script; returns the exit code."""
+    for name in BLAS_THREAD_VARIABLES:  # before numpy is first imported
+        os.environ.setdefault(name, "1")
     try:
         return run(argv)
     except TauscanError as exc:

@@ -37,8 +37,8 @@ class ScanRequest:
 @dataclass
 class ScanRun:
     request: ScanRequest
-    circuit: Circuit
-    op: OperatingPoint
+    circuit: Circuit | None  # None when the run comes back from a worker
+    op: OperatingPoint | None
     analysis: Analysis
     lint: LintResult
     settings: lint_settings.LintSettings
@@ -94,9 +94,13 @@ def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
 
 
 def scan_in_worker(request: ScanRequest) -> ScanRun:
-    """One scan in a worker process (no progress display); the small-signal matrices stay behind."""
+    """One scan in a worker process (no progress display).  Only what the reports read
+    travels back: the circuit, the operating point and the small-signal matrices stay
+    behind (pickling them cost more than the scan itself on a batch of 2e4-line netlists)."""
     run = scan(request)
     run.network = None
+    run.circuit = None
+    run.op = None
     return run
 
 

@@ -221,3 +221,16 @@ def test_stepping_search_on_an_ac_coupled_probe(write, monkeypatch):
     # the 8x grid samples the plateau about 0.1 % below its top (both corners are three
     # decades from the samples' best point), which moves the crossing by about twice that
     assert_allclose(result.f3db_hz, exact, rtol=5e-3)
+
+
+def test_sparse_poles_do_not_depend_on_earlier_runs(write):
+    """ARPACK starts from a fixed vector: the same circuit gives the same poles, bit for bit,
+    whatever ran before in the process (a batch worker runs many)."""
+    path = write(ladder(60), "a.sp")
+    other = write(ladder(45, r=2e3), "b.sp")
+    settings = AnalysisSettings(dense_limit=10)
+    first = api.scan(path, probe="n60", settings=settings)
+    api.scan(other, probe="n45", settings=settings)
+    again = api.scan(path, probe="n60", settings=settings)
+    assert list(first.poles) == list(again.poles)
+    assert [c.pole_share for c in first.capacitors] == [c.pole_share for c in again.capacitors]

@@ -41,6 +41,8 @@ SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
 #: ncv sparse solves, so these bound the time spent on clustered poles (many equal stages).
 ARPACK_RESTARTS = (40, 4)
+#: Seed of the start vector of every ARPACK run (results never depend on earlier runs).
+ARPACK_SEED = 20261202
 #: An eigenvalue of G^-1 C smaller than this fraction of the largest is an infinite pole.
 LAMBDA_FLOOR = 1e-13
 
@@ -94,7 +96,10 @@ def _sparse(g, c, lu, cache=None) -> Poles:
     found = []
     for k, ncv, maxiter in ((1, min(n - 1, 24), ARPACK_RESTARTS[0]), (min(SPARSE_POLES, n - 2), min(n - 1, 32), ARPACK_RESTARTS[1])):
         try:
-            lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-9, maxiter=maxiter)
+            # a fixed start vector: ARPACK's own draws continue from call to call within a
+            # process, which made a batch's figures depend on what ran before in its worker
+            v0 = np.random.default_rng(ARPACK_SEED).standard_normal(n)
+            lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-9, maxiter=maxiter, v0=v0)
         except spla.ArpackNoConvergence as exc:
             lam = exc.eigenvalues
             if k > 1:

@@ -21,8 +21,18 @@ def _finite(x: float | None) -> float | None:
     return x if -_INF < x < _INF else None
 
 
+class _Compact:
+    """Pickles as the class and a tuple of the field values (a batch sends tens of thousands
+    of these back from each worker; the default form repeats every field name)."""
+
+    __slots__ = ()
+
+    def __reduce__(self):
+        return (type(self), tuple(getattr(self, name) for name in self.__slots__))
+
+
 @dataclass(slots=True)
-class CapacitorResult:
+class CapacitorResult(_Compact):
     name: str
     node_in: str
     node_out: str
@@ -72,7 +82,7 @@ class CapacitorResult:
 
 
 @dataclass(slots=True)
-class NodeResult:
+class NodeResult(_Compact):
     node: str
     tau_s: float
     share: float

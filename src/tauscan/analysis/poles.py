@@ -36,6 +36,9 @@ MID_BAND_RATIO = 1e-9
 PIVOTING_LIMIT = 20_000
 #: Below this many unknowns ARPACK has no room for its Krylov space: always dense.
 SPARSE_MIN = 40
+#: Flat strides (each F3DB_STEP squared) after which a large circuit's response is taken to
+#: level off, once beyond a thousand times the poles in view.
+LEVEL_OFF_STRIDES = 3
 #: Number of dominant poles sought in a large circuit.
 SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
@@ -434,6 +437,8 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
         steps += 1
     peak = max(h0, value)
     step = F3DB_STEP
+    flat_run = 0
+    top_guess = max(guesses) if guesses else 1.0
     while steps < 120:
         f_next = f * step
         v_next = abs(resp(f_next))
@@ -451,10 +456,27 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
         # factorization; a wider bracket costs Brent's method about one more point
         flat = value > 0 and abs(math.log(v_next / value)) < 0.01 if v_next > 0 else False
         step = F3DB_STEP ** 2 if flat else F3DB_STEP
+        flat_run = flat_run + 1 if flat and step == F3DB_STEP ** 2 else 0
         f, value, steps = f_next, v_next, steps + 1
+        if flat_run >= LEVEL_OFF_STRIDES and f > 1e3 * top_guess:
+            # flat over several decades far above every pole in view: the response levels off
+            # (a capacitive path straight from the source to the probe, say)
+            return None, f"no -3 dB point: the response levels off above {_hz(f_next_low(f))}"
         if f > 1e18:
             break
     return None, "no -3 dB point within the searched band"
+
+
+def f_next_low(f: float) -> float:
+    """Where a run of flat strides that ends at ``f`` began."""
+    return f / (F3DB_STEP ** 2) ** LEVEL_OFF_STRIDES
+
+
+def _hz(f: float) -> str:
+    for scale, unit in ((1e9, "GHz"), (1e6, "MHz"), (1e3, "kHz")):
+        if f >= scale:
+            return f"{f / scale:.3g} {unit}"
+    return f"{f:.3g} Hz"
 
 
 def response_curve(g, c, b: np.ndarray, row: int, f_lo: float, f_hi: float, points: int = 200,

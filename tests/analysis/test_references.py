@@ -236,10 +236,12 @@ def test_sparse_poles_do_not_depend_on_earlier_runs(write):
     assert [c.pole_share for c in first.capacitors] == [c.pole_share for c in again.capacitors]
 
 
-def test_stepping_search_stops_where_the_response_levels_off(write, monkeypatch):
+def test_stepping_search_on_a_response_that_levels_off(write, monkeypatch):
     """A high-pass (1 pF into 1 MOhm): |H| -> 1 above 159 kHz and never falls (closed form
-    s RC / (1 + s RC)), so there is no upper -3 dB point; the large-circuit search must say
-    so after a few flat strides instead of stepping to 1e18 Hz."""
+    s RC / (1 + s RC)), so there is no upper -3 dB point.  The large-circuit search must say
+    so, striding across the flat band rather than stepping 8x at a time to 1e18 Hz.  (A flat
+    stretch alone never ends the search: a DC-coupled probe can stay flat for nine decades and
+    still roll off.)"""
     from tauscan.analysis import poles
 
     monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
@@ -253,5 +255,5 @@ def test_stepping_search_stops_where_the_response_levels_off(write, monkeypatch)
     monkeypatch.setattr(poles.ComplexSolver, "factor", counted)
     text = "high-pass\nVin in 0 dc 0 ac 1\nC1 in out 1p\nR1 out 0 1meg\nRleak in out 1e15\n"
     result = api.scan(write(text), probe="out", settings=AnalysisSettings(dense_limit=0))
-    assert result.f3db_hz is None and "levels off" in result.f3db_note
-    assert max(abs(s) for s in calls) / (2 * math.pi) < 1e13 and len(calls) < 25
+    assert result.f3db_hz is None and "no -3 dB point" in result.f3db_note
+    assert len(calls) < 25  # 8x steps alone would take about 40

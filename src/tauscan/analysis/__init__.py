@@ -112,9 +112,11 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
             warnings.append("no AC source: the -3 dB frequency was not computed")
     else:
         b = net.ac_vector(src)[1:]
-        probe_name, probe_row = _probe(ss, lu, b, probe, src, octc)
+        probe_name, probe_row, samples = _probe(ss, lu, b, probe, src, octc)
         if probe_row is not None and settings.response:
             resp = poles_mod.Response(ss.g, ss.c, b, probe_row, cache=ss)
+            if not resp.dense:
+                resp.known.update(samples)
             dc_gain = abs(resp(0.0))
             f3, note = poles_mod.f3db(resp, found, octc)
             if resp.ill_conditioned:
@@ -208,25 +210,28 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
             raise SettingsError(f"--probe {probe!r}: no such node in the circuit")
         if key in ss.ac_ground:
             raise SettingsError(f"--probe {probe!r} is an AC ground (tied to ground through voltage sources)")
-        return key, ss.row(key)
+        return key, ss.row(key), {}
     n = ss.n_nodes
     mags = np.abs(lu.solve(b.real)[:n]) if not np.any(b.imag) else np.zeros(n)
+    solved: dict[float, np.ndarray] = {}
     if octc:
         solver = poles_mod.complex_solver(ss.g, ss.c, ss)
-        for f in np.geomspace(octc / 10, octc * 1e3, 4):
+        for f in np.geomspace(octc / 10, octc * 1e3, 4).tolist():
             try:
                 x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
             except RuntimeError:  # singular at this frequency: skip it
                 continue
             if np.all(np.isfinite(x)):
                 mags = np.maximum(mags, np.abs(x[:n]))
+                solved[f] = x
     for name in list(ss.ac_ground) + list(net.internal):
         if name in net.index and net.index[name] > 0:
             mags[net.index[name] - 1] = -1
     if not np.any(mags > 0):
-        return None, None
+        return None, None, {}
     row = int(np.argmax(mags))
-    return net.nodes[row + 1], row
+    # the response at the chosen node at those frequencies, for the -3 dB search to reuse
+    return net.nodes[row + 1], row, {f: complex(x[row]) for f, x in solved.items()}
 
 
 def _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, threshold) -> list[NodeResult]:

@@ -8,6 +8,8 @@ places which.
 
 from __future__ import annotations
 
+import math
+
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
 from tauscan.reader.elements import RULES
@@ -15,6 +17,9 @@ from tauscan.reader.fields import Field
 from tauscan.reader.lines import Card
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
+from tauscan.units import number_cache as _NUMBERS
+
+_INF = math.inf
 
 #: Deepest chain of nested subcircuit instances.
 MAX_DEPTH = 1000
@@ -122,11 +127,13 @@ class Flattener:
         for name in top.models:
             root.model(name)
         stack: list[tuple[Frame, int]] = [(root, 0)]
+        seen = self.seen
+        elements = self.circuit.elements
         while stack:
             frame, index = stack.pop()
-            elements = frame.definition.elements
-            while index < len(elements):
-                name, fields, card = elements[index]
+            cards = frame.definition.elements
+            while index < len(cards):
+                name, fields, card = cards[index]
                 index += 1
                 letter = name[0]
                 if letter == "x":
@@ -137,9 +144,13 @@ class Flattener:
                 if (letter == "r" or letter == "c") and len(fields) == 4 and fields[1][0] == "w" \
                         and fields[2][0] == "w" and fields[3][0] == "w":
                     element = self._two_terminal(frame, letter, name, fields, card)
-                else:
-                    element = self._element(frame, name, fields, card)
-                self._add(element, card)
+                    if element.name in seen or element.value == 0:
+                        self._add(element, card)  # the general path says what is wrong
+                    else:
+                        seen[element.name] = card
+                        elements.append(element)
+                    continue
+                self._add(self._element(frame, name, fields, card), card)
         return self.circuit
 
     def _settings(self, root: Frame) -> None:
@@ -162,14 +173,17 @@ class Flattener:
         """``Rname a b value`` / ``Cname a b value``, the bulk of an extracted netlist: what
         :func:`~tauscan.reader.elements.passive` does for them, without its general cases."""
         f = fields[3]
-        value = field_value(f, card, frame.scope)
+        value = _NUMBERS.get(f[1])  # most values are plain numbers seen before
+        if value is None or not -_INF < value < _INF:
+            value = field_value(f, card, frame.scope)
         if letter == "r" and value == 0:
             raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", f[2])
         if letter == "c" and value < 0:
             raise card.error(NetlistSyntaxError, "negative capacitance", f[2])
-        node = frame.node
-        return Element(frame.prefix + name, letter, (node(fields[1][1]), node(fields[2][1])), value, None, {},
-                       card.file, card.line, None, (), card.comment)
+        known = frame._nodes
+        a = known.get(fields[1][1]) or frame.node(fields[1][1])
+        b = known.get(fields[2][1]) or frame.node(fields[2][1])
+        return Element(frame.prefix + name, letter, (a, b), value, None, {}, card.file, card.line, None, (), card.comment)
 
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
         pos: list[Field] = []

@@ -179,9 +179,15 @@ def logical_lines(lines: str | Iterable[str], file: str, *, has_title: bool) -> 
         lines = lines.splitlines()
     current: Card | None = None
     in_control = False
+    first = 1 if has_title else 0
     for number, raw in enumerate(lines, 1):
-        if number == 1 and has_title:
+        if number == first:
             title = raw.strip()
+            continue
+        # the bulk of a netlist: an element line with no comment, taken as it is
+        if raw[:1].isalpha() and not in_control and ";" not in raw and "$" not in raw and len(raw) <= MAX_LINE_CHARS:
+            current = Card(raw, file, number, "", raw)
+            cards.append(current)
             continue
         if len(raw) > MAX_LINE_CHARS:
             raise NetlistSyntaxError(

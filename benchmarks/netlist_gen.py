@@ -59,7 +59,8 @@ def stage_mesh(lines_wanted: int, segments: int = 2) -> str:
     out = ["benchmark: mesh of gain stages with RC wiring", MODELS.rstrip()]
     out.append("Vdd vdd 0 dc 1.8")
     out.append("Vin in 0 dc 0 ac 1")
-    out.append("Cin in g0_0 1p")
+    out.append("Rsrc in x_in 10k")  # the driver's output resistance
+    out.append("Cin x_in g0_0 1p")
     for i in range(side):
         for j in range(side):
             k = f"{i}_{j}"

@@ -36,6 +36,10 @@ MID_BAND_RATIO = 1e-9
 PIVOTING_LIMIT = 20_000
 #: Below this many unknowns ARPACK has no room for its Krylov space: always dense.
 SPARSE_MIN = 40
+#: Highest frequency the large-circuit -3 dB search steps to: a thousand times the transit
+#: frequency of the fastest transistors (well under 1 THz; from memory), so a response still
+#: flat there has no -3 dB point that matters.
+F3DB_MAX_HZ = 1e15
 #: Number of dominant poles sought in a large circuit.
 SPARSE_POLES = 8
 #: ARPACK restarts for the dominant pole, then for the next few: each restart costs up to
@@ -458,9 +462,9 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
         flat = value > 0 and abs(math.log(v_next / value)) < 0.01 if v_next > 0 else False
         step = F3DB_STEP ** 2 if flat else F3DB_STEP
         f, value, steps = f_next, v_next, steps + 1
-        if f > 1e18:
+        if f > F3DB_MAX_HZ:
             break
-    return None, "no -3 dB point within the searched band"
+    return None, f"no -3 dB point below {F3DB_MAX_HZ:.0e} Hz"
 
 
 def response_curve(g, c, b: np.ndarray, row: int, f_lo: float, f_hi: float, points: int = 200,

@@ -27,8 +27,11 @@ class _Parser(argparse.ArgumentParser):
         raise SettingsError(f"{self.prog}: {message} (see --help)")
 
 
-def _add_common(p: argparse.ArgumentParser) -> None:
-    p.add_argument("netlist", help="SPICE-format netlist file")
+def _add_common(p: argparse.ArgumentParser, several: bool = False) -> None:
+    if several:
+        p.add_argument("netlist", nargs="+", help="SPICE-format netlist files (one report)")
+    else:
+        p.add_argument("netlist", help="SPICE-format netlist file")
     p.add_argument("--param", action="append", default=[], metavar="NAME=VALUE", help="override a .param (repeatable)")
 
 

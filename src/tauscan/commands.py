@@ -7,7 +7,7 @@ import os
 from collections.abc import Callable
 
 
-def add_subcommands(sub, add_common: Callable[[argparse.ArgumentParser], None]) -> None:
+def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     """Register the handlers (``expand`` is declared by the CLI itself)."""
     sub.choices["expand"].set_defaults(handler=cmd_expand)
 
@@ -19,7 +19,7 @@ def add_subcommands(sub, add_common: Callable[[argparse.ArgumentParser], None]) 
     p.set_defaults(handler=cmd_op)
 
     p = sub.add_parser("scan", help="rank the capacitors and nodes that limit the bandwidth")
-    add_common(p)
+    add_common(p, several=True)
     _add_bias_options(p)
     _add_analysis_options(p)
     p.add_argument("--format", choices=["table", "json", "csv", "markdown", "sarif"], default="table")
@@ -161,7 +161,7 @@ def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float
 def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report.output import write_bytes, write_text
 
-    runs = _run_all(_requests(args, [args.netlist]), args.jobs, args.cluster, args.cluster_timeout)
+    runs = _run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout)
     top = args.top or None
     fmt = args.format
     if fmt == "table" and args.output is None:
@@ -169,12 +169,12 @@ def cmd_scan(args: argparse.Namespace) -> int:
 
         scan_table.print_to_terminal(runs, top)
     else:
-        write_text(_render(fmt, runs, top), args.output, protect=(args.netlist,))
+        write_text(_render(fmt, runs, top), args.output, protect=tuple(args.netlist))
     if args.plot:
         from tauscan.report import plot
 
         freqs, mags = runs[0].response_curve()
-        write_bytes(plot.render(runs[0], freqs, mags, args.plot), args.plot, protect=(args.netlist,))
+        write_bytes(plot.render(runs[0], freqs, mags, args.plot), args.plot, protect=tuple(args.netlist))
     return 0
 
 

@@ -109,3 +109,14 @@ def test_lib_corner_errors(tmp_path):
     assert nolib.returncode == 2 and "no '.lib FILE SECTION' card" in nolib.stderr
     bad = run_cli("scan", base, "--corner", "x:lib=1bad")
     assert bad.returncode == 2 and "not a .lib section name" in bad.stderr
+
+
+def test_scan_takes_several_netlists_and_corners():
+    result = run_cli("scan", SENSOR, DRIVER, "--corner", "a:temp=0", "--corner", "b:temp=85", "--format", "json",
+                     "--jobs", "2")
+    assert result.returncode == 0, result.stderr
+    runs = json.loads(result.stdout)["runs"]
+    assert [(Path(r["netlist"]).name, r["corner"]) for r in runs] == [
+        ("sensor_readout.sp", "a"), ("sensor_readout.sp", "b"), ("line_driver.sp", "a"), ("line_driver.sp", "b")]
+    table = run_cli("scan", SENSOR, DRIVER, "--top", "3")
+    assert table.returncode == 0 and "sensor_readout.sp" in table.stdout and "line_driver.sp" in table.stdout

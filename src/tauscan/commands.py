@@ -179,6 +179,13 @@ def cmd_scan(args: argparse.Namespace) -> int:
 
 
 def _render(fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
+    from tauscan.gcpause import paused_gc
+
+    with paused_gc():  # a record per capacitor: many objects, no cycles
+        return _render_now(fmt, runs, top, exit_code)
+
+
+def _render_now(fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
     if fmt == "json":
         from tauscan.report import scan_json
 

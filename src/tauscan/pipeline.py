@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from tauscan.analysis import AnalysisSettings, analyze_network
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
+from tauscan.gcpause import paused_gc
 from tauscan.lint import settings as lint_settings
 from tauscan.lint.gate import LintResult, run_rules, signal_nodes
 from tauscan.linear import linearize
@@ -105,6 +106,11 @@ def scan_in_worker(request: ScanRequest) -> ScanRun:
 
 
 def scan(request: ScanRequest, progress=None) -> ScanRun:
+    with paused_gc():
+        return _scan(request, progress)
+
+
+def _scan(request: ScanRequest, progress=None) -> ScanRun:
     timed = _Timed(progress or _NoProgress())
     settings = settings_for(request)
     with timed.stage("read", f"reading {os.path.basename(request.netlist)}") as advance:

@@ -7,9 +7,8 @@ parameters), with :mod:`expr` evaluating parameter expressions.
 
 from __future__ import annotations
 
-import gc
-
 from tauscan.circuit import Circuit
+from tauscan.gcpause import paused_gc
 from tauscan.reader.flatten import flatten
 from tauscan.reader.loader import load
 
@@ -23,15 +22,8 @@ def read_netlist(path: str, params: dict[str, float] | None = None, progress=Non
     replaces the section of every ``.lib FILE SECTION`` card whose file has one of that name.  The file is read a chunk at
     a time: its text is never held whole.
     """
-    # Reading makes millions of small tuples and no reference cycles; the cyclic
-    # garbage collector would rescan them again and again (about 40% of the time).
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
+    with paused_gc():  # millions of small tuples and no reference cycles
         return flatten(load(path, progress, lib_section), params)
-    finally:
-        if was_enabled:
-            gc.enable()
 
 
 __all__ = ["read_netlist"]

@@ -216,7 +216,7 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
     solved: dict[float, np.ndarray] = {}
     if octc:
         solver = poles_mod.complex_solver(ss.g, ss.c, ss)
-        for f in np.geomspace(octc / 10, octc * 1e3, 4).tolist():
+        for f in np.geomspace(octc / 10, octc * 1e3, 3).tolist():
             try:
                 x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
             except RuntimeError:  # singular at this frequency: skip it

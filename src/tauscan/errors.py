@@ -41,7 +41,7 @@ class TauscanError(Exception):
         return (type(self), (self.message, self.file, self.line, self.col, self.text))
 
     def where(self) -> str:
-        parts = [self.file or "<input>"]
+        parts = [self.file or "tauscan"]  # no file: an option or the command line itself
         if self.line is not None:
             parts.append(str(self.line))
             if self.col is not None:

@@ -71,3 +71,16 @@ def test_progress_hears_every_chunk(tmp_path, monkeypatch):
     assert len(heard) >= size // 1000 - 1
     assert all(total == size for _, total in heard)
     assert [d for d, _ in heard] == sorted(d for d, _ in heard) and heard[-1][0] == size
+
+
+@pytest.mark.parametrize("chunk", [3, 16, 1 << 20])
+def test_cr_only_line_ends_keep_their_line_numbers(tmp_path, monkeypatch, chunk):
+    monkeypatch.setattr(lines_mod, "CHUNK_BYTES", chunk)
+    path = tmp_path / "mac.sp"
+    path.write_bytes(b"old line ends\rR1 a b 1k\rR2 b 0 2k\rC1 b 0 {nowhere}\r")
+    assert list(lines_mod.read_lines(str(path))) == ["old line ends", "R1 a b 1k", "R2 b 0 2k", "C1 b 0 {nowhere}"]
+    from tauscan.errors import TauscanError
+
+    with pytest.raises(TauscanError) as info:
+        read_netlist(str(path))
+    assert info.value.line == 4

@@ -119,6 +119,8 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
                 return
             data = pending + chunk if pending else chunk
             cut = data.rfind(b"\n") + 1
+            if cut == 0:  # old-style CR line ends: a CR that cannot be half of a CR LF
+                cut = data.rfind(b"\r", 0, len(data) - 1) + 1
             if cut == 0:  # no end of line yet: one very long line
                 if len(data) > 4 * MAX_LINE_CHARS + 4:
                     raise NetlistSyntaxError(
@@ -129,9 +131,11 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
             pending = data[cut:]
             text = decode(data[:cut] if pending else data, shown, line)
             del data, chunk
-            line += text.count("\n")
-            yield from text.splitlines()
+            lines = text.splitlines()  # the chunk ends with a line end: one entry per line
             del text
+            line += len(lines)
+            yield from lines
+            del lines
             if progress is not None:
                 progress(done, size)
 

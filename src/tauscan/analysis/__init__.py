@@ -212,8 +212,13 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
             raise SettingsError(f"--probe {probe!r} is an AC ground (tied to ground through voltage sources)")
         return key, ss.row(key), {}
     n = ss.n_nodes
-    mags = np.abs(lu.solve(b.real)[:n]) if not np.any(b.imag) else np.zeros(n)
     solved: dict[float, np.ndarray] = {}
+    if not np.any(b.imag):
+        x0 = lu.solve(b.real)
+        mags = np.abs(x0[:n])
+        solved[0.0] = x0
+    else:
+        mags = np.zeros(n)
     if octc:
         solver = poles_mod.complex_solver(ss.g, ss.c, ss)
         for f in np.geomspace(octc / 10, octc * 1e3, 3).tolist():
@@ -230,6 +235,8 @@ def _probe(ss: SmallSignalNetwork, lu, b: np.ndarray, probe: str | None, src: El
     if not np.any(mags > 0):
         return None, None, {}
     row = int(np.argmax(mags))
+    # every node's response at those frequencies, for the lint stage to reuse
+    ss.solved_responses = (src.name, solved)
     # the response at the chosen node at those frequencies, for the -3 dB search to reuse
     return net.nodes[row + 1], row, {f: complex(x[row]) for f, x in solved.items()}
 

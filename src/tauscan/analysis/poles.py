@@ -98,12 +98,17 @@ def _sparse(g, c, lu, cache=None) -> Poles:
     op = spla.LinearOperator((n, n), matvec=lambda v: lu.solve(np.asarray(c @ v)), dtype=float)
     notes = []
     found = []
+    first: tuple[complex, np.ndarray] | None = None  # the first round's eigenvalue and vector
+    # a fixed start vector: ARPACK's own draws continue from call to call within a process,
+    # which made a batch's figures depend on what ran before in its worker
+    v0 = np.random.default_rng(ARPACK_SEED).standard_normal(n)
     for k, ncv, maxiter in ((1, min(n - 1, 24), ARPACK_RESTARTS[0]), (min(SPARSE_POLES, n - 2), min(n - 1, 32), ARPACK_RESTARTS[1])):
         try:
-            # a fixed start vector: ARPACK's own draws continue from call to call within a
-            # process, which made a batch's figures depend on what ran before in its worker
-            v0 = np.random.default_rng(ARPACK_SEED).standard_normal(n)
-            lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-9, maxiter=maxiter, v0=v0)
+            if k == 1:
+                lam, vectors = spla.eigs(op, k=1, ncv=ncv, which="LM", tol=1e-9, maxiter=maxiter, v0=v0)
+                first = (complex(lam[0]), vectors[:, 0])
+            else:
+                lam = spla.eigs(op, k=k, ncv=ncv, which="LM", return_eigenvectors=False, tol=1e-9, maxiter=maxiter, v0=v0)
         except spla.ArpackNoConvergence as exc:
             lam = exc.eigenvalues
             if k > 1:
@@ -118,11 +123,44 @@ def _sparse(g, c, lu, cache=None) -> Poles:
     poles = _tidy(poles[order])
     right = left = None
     if len(poles):
-        try:
-            right, left = eigenvectors(g, c, complex(poles[0]), cache=cache)
-        except RuntimeError:
-            notes.append("the dominant pole's eigenvectors could not be found; no pole shares")
+        pair = _arpack_vectors(g, c, lu, complex(poles[0]), first, v0)
+        if pair is not None:
+            right, left = pair
+        else:
+            try:
+                right, left = eigenvectors(g, c, complex(poles[0]), cache=cache)
+            except RuntimeError:
+                notes.append("the dominant pole's eigenvectors could not be found; no pole shares")
     return Poles(poles, False, "sparse shift-invert", right, left, notes)
+
+
+def _arpack_vectors(g, c, lu, pole: complex, first, v0) -> tuple[np.ndarray, np.ndarray] | None:
+    """Right and left vectors of the dominant pole straight from ARPACK: the right one from the
+    first round (an eigenvector x of G^-1 C is a null vector of G + pC), the left one from the
+    transposed operator G^-T C^T.  None when either is not that pole's (the caller then uses
+    inverse iteration, which costs a complex factorization)."""
+    if first is None:
+        return None
+    lam = -1.0 / pole
+    lam1, x = first
+    if abs(lam1 - lam) > 1e-7 * abs(lam):
+        if abs(lam1.conjugate() - lam) > 1e-7 * abs(lam):
+            return None
+        x = np.conj(x)
+    n = g.shape[0]
+    ct = c.T.tocsc()
+    op_t = spla.LinearOperator((n, n), matvec=lambda v: lu.solve(np.asarray(ct @ v), trans="T"), dtype=float)
+    try:
+        mu, vectors = spla.eigs(op_t, k=1, ncv=min(n - 1, 24), which="LM", tol=1e-9, maxiter=ARPACK_RESTARTS[0], v0=v0)
+    except spla.ArpackNoConvergence:
+        return None
+    y = vectors[:, 0]
+    mu0 = complex(mu[0])
+    if abs(mu0 - lam) > 1e-7 * abs(lam):
+        if abs(mu0.conjugate() - lam) > 1e-7 * abs(lam):
+            return None
+        y = np.conj(y)
+    return x.astype(complex), y.astype(complex)
 
 
 def _unique(values: np.ndarray, rtol: float = 1e-8) -> np.ndarray:

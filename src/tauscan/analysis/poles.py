@@ -26,7 +26,7 @@ import scipy.sparse.linalg as spla
 #: Up to this many unknowns all poles are found with a dense eigen-solver.
 DENSE_LIMIT = 800
 #: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
-#: factorization; Brent's method then refines the bracket).
+#: factorization; regula falsi then refines the bracket).
 F3DB_STEP = 8.0
 #: |H(0)| below this fraction of the highest |H| means no DC path: the -3 dB point is then
 #: taken from the mid-band peak.
@@ -388,9 +388,9 @@ class Response:
 def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tuple[float | None, str]:
     """Where |H| falls to 1/sqrt(2) of |H(0)| (or of the mid-band peak when H(0) = 0).
 
-    Small circuits: a sweep over the whole pole band, then Brent's method on the first
+    Small circuits: a sweep over the whole pole band, then regula falsi on the first
     crossing.  Large ones (each point a sparse complex factorization): steps
-    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then Brent's method.
+    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then regula falsi.
     Returns the frequency (Hz, or None) and a note on how it was found.
     """
     h0 = resp.dc()
@@ -496,7 +496,7 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
             return _refine(resp, target, f, f_next, value, v_next), note
         # across a flat band (within 1 % over the step) stride eight times further: an
         # AC-coupled probe can lie decades above its coupling pole, and each point costs a
-        # factorization; a wider bracket costs Brent's method about one more point
+        # factorization; a wider bracket costs the refinement about one more point
         flat = value > 0 and abs(math.log(v_next / value)) < 0.01 if v_next > 0 else False
         step = F3DB_STEP ** 2 if flat else F3DB_STEP
         f, value, steps = f_next, v_next, steps + 1

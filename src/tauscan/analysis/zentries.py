@@ -148,8 +148,8 @@ def _takahashi(lu, n: int, a_rows: np.ndarray, a_cols: np.ndarray) -> _Inverse:
     (``a_rows >= a_cols``: its entries folded below the diagonal).
 
     Short columns (at most :data:`SMALL_STRUCT` rows: chains and trees of stages) run on
-    scalars, long ones (meshes fill) on numpy blocks; the positions every column reads are
-    found for all columns at once beforehand."""
+    scalars, long ones (meshes fill) on numpy blocks gathered from their parent's block; the
+    positions the short columns read are found for all of them at once beforehand."""
     lower = lu.L.tocsc()
     upper = lu.U.tocsr()
     diag = upper.diagonal()

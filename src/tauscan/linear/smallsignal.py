@@ -58,45 +58,36 @@ class SmallSignalNetwork:
         """The AC-ground nodes as ``(row, parent row or -1 for ground, source branch row,
         sign)``, each after its parent: v[row] = v[parent] + sign * b[branch] in an AC
         solve, b[branch] being the source's AC value (0 for every source not driven)."""
-        net = self.network
-        adjacent: dict[str, list[tuple[str, int, int]]] = {}
-        for e in self.circuit.elements:
-            if e.kind == "v" and e.name in net.branch_of:
-                p, n = e.nodes
-                br = net.branch_of[e.name] - 1
-                adjacent.setdefault(p, []).append((n, br, -1))  # reach n from p: v_n = v_p - b
-                adjacent.setdefault(n, []).append((p, br, +1))  # reach p from n: v_p = v_n + b
-        out = []
-        seen = {GROUND}
-        queue = [GROUND]
-        while queue:
-            node = queue.pop(0)
-            for other, br, sign in adjacent.get(node, []):
-                if other in seen:
-                    continue
+        branch = self.network.branch_of
+        return [(self.row(node), self.row(parent) if parent != GROUND else -1, branch[e.name] - 1,
+                 +1 if node == e.nodes[0] else -1)
+                for node, parent, e in _source_tree(self.circuit)]
+
+
+def _source_tree(circuit: Circuit) -> list[tuple[str, str, Element]]:
+    """Nodes tied to ground through independent voltage sources only, breadth first from
+    ground: ``(node, the node it is reached from, the source between them)``."""
+    adjacent: dict[str, list[tuple[str, Element]]] = {}
+    for e in circuit.elements:
+        if e.kind == "v":
+            a, b = e.nodes
+            adjacent.setdefault(a, []).append((b, e))
+            adjacent.setdefault(b, []).append((a, e))
+    out = []
+    seen = {GROUND}
+    queue = [GROUND]
+    for node in queue:  # grows while it is walked
+        for other, e in adjacent.get(node, []):
+            if other not in seen:
                 seen.add(other)
                 queue.append(other)
-                out.append((self.row(other), self.row(node) if node != GROUND else -1, br, sign))
-        return out
+                out.append((other, node, e))
+    return out
 
 
 def ac_grounds(circuit: Circuit) -> set[str]:
     """Nodes tied to ground through independent voltage sources only (METHOD section 1)."""
-    adjacent: dict[str, list[str]] = {}
-    for e in circuit.elements:
-        if e.kind == "v":
-            a, b = e.nodes
-            adjacent.setdefault(a, []).append(b)
-            adjacent.setdefault(b, []).append(a)
-    grounded = {GROUND}
-    stack = [GROUND]
-    while stack:
-        node = stack.pop()
-        for other in adjacent.get(node, []):
-            if other not in grounded:
-                grounded.add(other)
-                stack.append(other)
-    return grounded
+    return {GROUND} | {node for node, _, _ in _source_tree(circuit)}
 
 
 def _device_stamps(op: OperatingPoint, g: Triplets) -> list[CapacitorRecord]:

@@ -72,6 +72,14 @@ _PASSIVE_UNIT = {"r": "resistance", "c": "capacitance", "l": "inductance"}
 _PASSIVE_KEYS = {"r": ("r", "value", "res"), "c": ("c", "value", "cap"), "l": ("l", "value", "ind")}
 
 
+def check_passive_value(letter: str, value: float, card: Card, offset: int) -> None:
+    """A resistance of zero and a negative capacitance are errors (at ``offset`` in the card)."""
+    if letter == "r" and value == 0:
+        raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", offset)
+    if letter == "c" and value < 0:
+        raise card.error(NetlistSyntaxError, "negative capacitance", offset)
+
+
 def passive(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
     """R, C, L: two nodes and a value (positional, or ``r=``/``c=``/``l=``/``value=``)."""
     unit = _PASSIVE_UNIT[letter]
@@ -90,10 +98,7 @@ def passive(letter: str, name: str, pos: list[Field], params: list[Field], card:
         else:
             raise card.error(NetlistSyntaxError, f"missing {unit} value", len(card.text.rstrip()))
         _extra(pos, 2, card)
-    if letter == "r" and value == 0:
-        raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", pos[2][2] if len(pos) > 2 else 0)
-    if letter == "c" and value < 0:
-        raise card.error(NetlistSyntaxError, "negative capacitance", pos[2][2] if len(pos) > 2 else 0)
+    check_passive_value(letter, value, card, pos[2][2] if len(pos) > 2 else 0)
     node = frame.node
     return Element(name, letter, (node(pos[0][1]), node(pos[1][1])), value, model, values, card.file, card.line, None, (), card.comment)
 

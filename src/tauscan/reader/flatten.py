@@ -12,7 +12,7 @@ import math
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
-from tauscan.reader.elements import RULES
+from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field
 from tauscan.reader.lines import Card
 from tauscan.reader.loader import Definition, Netlist
@@ -176,10 +176,7 @@ class Flattener:
         value = _NUMBERS.get(f[1])  # most values are plain numbers seen before
         if value is None or not -_INF < value < _INF:
             value = field_value(f, card, frame.scope)
-        if letter == "r" and value == 0:
-            raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", f[2])
-        if letter == "c" and value < 0:
-            raise card.error(NetlistSyntaxError, "negative capacitance", f[2])
+        check_passive_value(letter, value, card, f[2])
         known = frame._nodes
         a = known.get(fields[1][1]) or frame.node(fields[1][1])
         b = known.get(fields[2][1]) or frame.node(fields[2][1])

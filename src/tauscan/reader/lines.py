@@ -140,11 +140,6 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
                 progress(done, size)
 
 
-def read_file(path: str, shown: str | None = None) -> str:
-    """Read and decode one whole netlist file (for small files; the reader streams)."""
-    return "\n".join(read_lines(path, shown))
-
-
 def _split_comment(raw: str) -> tuple[str, str]:
     """Split off an inline comment: ``;`` anywhere, ``$`` at the start or after white space.
 

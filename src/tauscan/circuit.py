@@ -6,7 +6,12 @@ All values are floats in SI units; names are lower case and hierarchical
 
 from __future__ import annotations
 
+from bisect import bisect_left
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
+from itertools import chain, repeat
+
+import numpy as np
 
 GROUND = "0"
 
@@ -76,6 +81,8 @@ class Element:
     source: SourceSpec | None = None
     control: tuple[str, ...] = ()
     comment: str = ""
+    #: position in the flat circuit (elements and table rows share one count)
+    seq: int = 0
 
     def to_json(self) -> dict:
         out = {
@@ -112,32 +119,113 @@ class Model:
 
 
 @dataclass
+class PassiveTable:
+    """Plain two-terminal resistors and capacitors in columns, one row each.
+
+    A plain line (``Rname a b value`` or ``Cname a b value``, nothing else on it) is the
+    bulk of an extracted netlist; keeping its fields in columns, with no object per
+    element, is what makes a 10^6-line netlist quick to read and to stamp.  Rows are in
+    the order of the flat circuit (``seq``, shared with :attr:`Circuit.general`).
+    """
+
+    kinds: list[str] = field(default_factory=list)  # "r" or "c"
+    names: list[str] = field(default_factory=list)
+    a: list[str] = field(default_factory=list)
+    b: list[str] = field(default_factory=list)
+    values: list[float] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)
+    lines: list[int] = field(default_factory=list)
+    seq: list[int] = field(default_factory=list)
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def element(self, k: int) -> Element:
+        """Row ``k`` as an :class:`Element` (made on demand, for reports and look-ups)."""
+        return Element(self.names[k], self.kinds[k], (self.a[k], self.b[k]), self.values[k], None, {},
+                       self.files[k], self.lines[k], seq=self.seq[k])
+
+    def rows_of(self, kind: str) -> np.ndarray:
+        """Indices of the rows of one kind (``"r"`` or ``"c"``)."""
+        if not self.kinds:
+            return np.zeros(0, dtype=np.int64)
+        return np.flatnonzero(np.fromiter(map(kind.__eq__, self.kinds), dtype=bool, count=len(self.kinds)))
+
+
+class ElementView(Sequence):
+    """Every element of a circuit in order, the table rows made into objects as they are met
+    (for listings, JSON and tests; the numerical stages read the columns instead)."""
+
+    def __init__(self, circuit: "Circuit") -> None:
+        self._circuit = circuit
+
+    def __len__(self) -> int:
+        return len(self._circuit.general) + len(self._circuit.passives)
+
+    def __iter__(self) -> Iterator[Element]:
+        general = self._circuit.general
+        table = self._circuit.passives
+        if not len(table):
+            yield from general
+            return
+        row = 0
+        for e in general:
+            end = bisect_left(table.seq, e.seq, row)
+            for k in range(row, end):
+                yield table.element(k)
+            row = end
+            yield e
+        for k in range(row, len(table)):
+            yield table.element(k)
+
+    def __getitem__(self, index):
+        return list(self)[index]
+
+
+@dataclass
 class Circuit:
-    """A flat, fully evaluated circuit."""
+    """A flat, fully evaluated circuit: the elements with an object each (:attr:`general`)
+    and the plain resistors and capacitors in columns (:attr:`passives`)."""
 
     title: str
     file: str
-    elements: list[Element] = field(default_factory=list)
+    general: list[Element] = field(default_factory=list)
+    passives: PassiveTable = field(default_factory=PassiveTable)
     models: dict[str, Model] = field(default_factory=dict)
     options: dict[str, float | str] = field(default_factory=dict)
     temp_c: float | None = None
     global_nodes: set[str] = field(default_factory=set)
     warnings: list[str] = field(default_factory=list)
 
+    @property
+    def elements(self) -> ElementView:
+        """Every element in order, as objects (see :class:`ElementView`)."""
+        return ElementView(self)
+
     def element(self, name: str) -> Element:
-        for element in self.elements:
+        for element in self.general:
             if element.name == name:
                 return element
-        raise KeyError(name)
+        try:
+            return self.passives.element(self.passives.names.index(name))
+        except ValueError:
+            raise KeyError(name) from None
 
     def nodes(self) -> list[str]:
         """Every node name, ground first, then in order of first appearance."""
-        seen = {GROUND: None}
-        for element in self.elements:
-            if element.kind == "k":
-                continue
-            for node in element.nodes:
-                seen.setdefault(node, None)
+        seen: dict[str, None] = {GROUND: None}
+        table = self.passives
+        row = 0
+        for e in self.general:
+            if table.seq:
+                end = bisect_left(table.seq, e.seq, row)
+                if end > row:
+                    seen.update(zip(chain.from_iterable(zip(table.a[row:end], table.b[row:end])), repeat(None)))
+                    row = end
+            if e.kind != "k":
+                seen.update(zip(e.nodes, repeat(None)))
+        if row < len(table):
+            seen.update(zip(chain.from_iterable(zip(table.a[row:], table.b[row:])), repeat(None)))
         return list(seen)
 
     def to_json(self) -> dict:

@@ -79,7 +79,15 @@ class Network:
     def __init__(self, circuit: Circuit) -> None:
         self.circuit = circuit
         self.nodes: list[str] = circuit.nodes()
-        self.index: dict[str, int] = {name: i for i, name in enumerate(self.nodes)}
+        self.index: dict[str, int] = dict(zip(self.nodes, range(len(self.nodes))))
+        table = circuit.passives
+        #: node indices of the two ends of every row of the circuit's table of plain passives
+        self.passive_a = np.fromiter(map(self.index.__getitem__, table.a), dtype=np.int64, count=len(table))
+        self.passive_b = np.fromiter(map(self.index.__getitem__, table.b), dtype=np.int64, count=len(table))
+        self.passive_values = np.array(table.values, dtype=float)
+        #: rows of the table that are resistors, and capacitors
+        self.passive_r = table.rows_of("r")
+        self.passive_c = table.rows_of("c")
         self.internal: set[str] = set()
         self.branch_of: dict[str, int] = {}
         self._branch_elements: list[Element] = []
@@ -99,7 +107,7 @@ class Network:
         """Number the branch currents after all nodes are known."""
         if self._sealed:
             return
-        for element in self.circuit.elements:
+        for element in self.circuit.general:  # the table holds resistors and capacitors only
             if element.kind in BRANCH_KINDS:
                 self.branch_of[element.name] = len(self.nodes) + len(self._branch_elements)
                 self._branch_elements.append(element)
@@ -132,7 +140,7 @@ class Network:
         idx = self.index
         res_a, res_b, res_g = [], [], []
         rows, cols, vals = [], [], []
-        for e in self.circuit.elements:
+        for e in self.circuit.general:
             k = e.kind
             if k == "r":
                 res_a.append(idx[e.nodes[0]])
@@ -166,6 +174,9 @@ class Network:
                 vals += [e.value, -e.value]
         if res_a:
             t.conductance(np.array(res_a), np.array(res_b), np.array(res_g))
+        k = self.passive_r
+        if len(k):
+            t.conductance(self.passive_a[k], self.passive_b[k], 1.0 / self.passive_values[k])
         if rows:
             t.add(np.array(rows), np.array(cols), np.array(vals))
         return t
@@ -175,7 +186,7 @@ class Network:
         t = Triplets()
         idx = self.index
         ca, cb, cv = [], [], []
-        for e in self.circuit.elements:
+        for e in self.circuit.general:
             if e.kind == "c" and e.value:
                 ca.append(idx[e.nodes[0]])
                 cb.append(idx[e.nodes[1]])
@@ -190,13 +201,13 @@ class Network:
                 t.add([b1, b2], [b2, b1], [-mutual, -mutual])
         if cv:
             t.conductance(np.array(ca), np.array(cb), np.array(cv))
+        k = self.passive_c[self.passive_values[self.passive_c] != 0]
+        if len(k):
+            t.conductance(self.passive_a[k], self.passive_b[k], self.passive_values[k])
         return t
 
     def _inductor(self, k: Element, name: str) -> Element:
-        try:
-            element = self.circuit.element(name)
-        except KeyError:
-            element = None
+        element = next((e for e in self.circuit.general if e.name == name), None)
         if element is None or element.kind != "l":
             raise CircuitError(f"{k.name}: {name!r} is not an inductor", k.file, k.line)
         return element
@@ -205,7 +216,7 @@ class Network:
         """Right-hand side of the DC equations (full size, ground included)."""
         b = np.zeros(self.size)
         idx = self.index
-        for e in self.circuit.elements:
+        for e in self.circuit.general:
             if e.kind == "v":
                 b[self.branch_of[e.name]] += scale * e.value
             elif e.kind == "i":

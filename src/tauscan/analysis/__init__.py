@@ -51,11 +51,11 @@ def _source_element(ss: SmallSignalNetwork, name: str | None) -> Element | None:
     circuit = ss.circuit
     if name is not None:
         key = name.lower()
-        for e in circuit.elements:
+        for e in circuit.general:
             if e.name == key and e.kind in "vi":
                 return e
         raise SettingsError(f"--source {name!r}: no independent voltage or current source of that name")
-    for e in circuit.elements:
+    for e in circuit.general:
         if e.kind in "vi" and e.source is not None and e.source.ac_mag:
             return e
     return None
@@ -188,7 +188,7 @@ def _capacitor_records(keep, table, excess, cascoded, shares, sum_tau: float) ->
 def _inductor_time_constants(ss: SmallSignalNetwork, lu) -> float:
     """Sum of L / R for the inductors (R: the resistance each sees with the capacitors open)."""
     net = ss.network
-    inductors = [e for e in ss.circuit.elements if e.kind == "l"]
+    inductors = [e for e in ss.circuit.general if e.kind == "l"]
     if not inductors:
         return 0.0
     rows = np.array([net.branch_of[e.name] - 1 for e in inductors], dtype=np.int64)

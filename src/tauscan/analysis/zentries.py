@@ -325,7 +325,7 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
     grounded).  Returns None when E, F or H sources need branch rows.
     """
     circuit = ss.circuit
-    if any(e.kind in "efh" for e in circuit.elements):
+    if any(e.kind in "efh" for e in circuit.general):
         return None
     net = ss.network
     parent = list(range(net.n_nodes))
@@ -336,7 +336,7 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
             a = parent[a]
         return a
 
-    for e in circuit.elements:
+    for e in circuit.general:
         if e.kind in "vl":
             a, b = find(net.node(e.nodes[0])), find(net.node(e.nodes[1]))
             if a != b:

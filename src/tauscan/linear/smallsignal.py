@@ -68,7 +68,7 @@ def _source_tree(circuit: Circuit) -> list[tuple[str, str, Element]]:
     """Nodes tied to ground through independent voltage sources only, breadth first from
     ground: ``(node, the node it is reached from, the source between them)``."""
     adjacent: dict[str, list[tuple[str, Element]]] = {}
-    for e in circuit.elements:
+    for e in circuit.general:
         if e.kind == "v":
             a, b = e.nodes
             adjacent.setdefault(a, []).append((b, e))
@@ -133,7 +133,10 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
     if device_caps:
         c.conductance(np.array([idx[cap.a] for cap in device_caps]), np.array([idx[cap.b] for cap in device_caps]),
                       np.array([cap.farads for cap in device_caps]))
-    explicit = [_explicit(e) for e in circuit.elements if e.kind == "c"]
+    table = circuit.passives
+    names, a, b, farads, files, lines = table.names, table.a, table.b, table.values, table.files, table.lines
+    explicit = [CapacitorRecord(names[k], a[k], b[k], farads[k], files[k], lines[k]) for k in net.passive_c.tolist()]
+    explicit += [_explicit(e) for e in circuit.general if e.kind == "c"]
     return SmallSignalNetwork(
         circuit=circuit,
         network=net,

@@ -21,18 +21,27 @@ class Rule:
     check: Callable
 
 
-def _first_lines(circuit) -> dict[str, tuple[str, int]]:
-    """Node -> (file, line) of the first element that touches it."""
-    out: dict[str, tuple[str, int]] = {}
-    for e in circuit.elements:
-        for node in e.nodes:
-            out.setdefault(node, (e.file, e.line))
-    return out
+def _first_line(circuit, node: str, default: str) -> tuple[str, int | None]:
+    """(file, line) of the first element of the flat circuit that touches ``node``
+    (``(default, None)`` when none does)."""
+    best: tuple[int, str, int] | None = None
+    for e in circuit.general:
+        if node in e.nodes:
+            best = (e.seq, e.file, e.line)
+            break
+    table = circuit.passives
+    for column in (table.a, table.b):
+        try:
+            k = column.index(node)  # a scan in C; a finding or two per run
+        except ValueError:
+            continue
+        if best is None or table.seq[k] < best[0]:
+            best = (table.seq[k], table.files[k], table.lines[k])
+    return (best[1], best[2]) if best else (default, None)
 
 
 def miller_node(ctx) -> list[Finding]:
     a, s = ctx.analysis, ctx.settings
-    lines = _first_lines(ctx.circuit)
     # a waived capacitor's Miller part does not count toward a node finding
     waived_excess: dict[str, float] = {}
     for cap in a.capacitors:
@@ -48,9 +57,10 @@ def miller_node(ctx) -> list[Finding]:
         caps = [c for c in a.capacitors if c.node_in == node.node and c.klass == "miller" and c.name not in ctx.waivers]
         caps.sort(key=lambda c: -c.miller_excess_s)
         worst = caps[0] if caps else None
-        file, line = lines.get(node.node, (a.netlist, None))
         if worst is not None:
             file, line = worst.file, worst.line
+        else:
+            file, line = _first_line(ctx.circuit, node.node, a.netlist)
         found.append(Finding(
             "miller-node", ctx.level("miller-node"), file, line, node.node,
             "node {} carries {:.0%} of the total time constant, {:.0%} of it Miller multiplication{}",
@@ -95,10 +105,9 @@ def regenerative_cap(ctx) -> list[Finding]:
 
 
 def floating_node(ctx) -> list[Finding]:
-    lines = _first_lines(ctx.circuit)
     out = []
     for node in ctx.analysis.floating:
-        file, line = lines.get(node, (ctx.analysis.netlist, None))
+        file, line = _first_line(ctx.circuit, node, ctx.analysis.netlist)
         out.append(Finding(
             "floating-node", ctx.level("floating-node"), file, line, node,
             "node {} has no DC path to ground; only GMIN holds its bias", (node,), {},

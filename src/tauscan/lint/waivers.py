@@ -34,7 +34,7 @@ def inline_waiver(comment: str) -> tuple[str | None, str] | None:
 
 def resolve(analysis, circuit, patterns: dict[str, str], origin: str | None) -> dict[str, Waiver]:
     """Capacitor name -> the waiver that applies to it."""
-    comments = {e.name: e.comment for e in circuit.elements if e.comment}
+    comments = {e.name: e.comment for e in circuit.general if e.comment}  # plain table rows have none
     out: dict[str, Waiver] = {}
     for cap in analysis.capacitors:
         owner = cap.device or cap.name

@@ -102,12 +102,12 @@ class DCSolver:
         self.settings = settings or SolverSettings.from_options(circuit.options)
         self.warnings: list[str] = []
         topology.check_voltage_loops(circuit)
-        self.floating = topology.floating_nodes(circuit)
-        topology.check_current_sources(circuit, self.floating)
         net = Network(circuit)
+        self.floating = topology.floating_nodes(circuit, net)
+        topology.check_current_sources(circuit, self.floating)
         self.groups = []
         by_kind: dict[str, list] = {}
-        for e in circuit.elements:
+        for e in circuit.general:
             if e.kind in GROUP_OF:
                 by_kind.setdefault(e.kind, []).append(e)
         for kind in ("m", "q", "d"):
@@ -279,7 +279,7 @@ class DCSolver:
         worst = [int(i) for i in np.argsort(-dx)[:4] if dx[i] > 0 and i > 0]
         nodes = ", ".join(f"{net.nodes[i]} (last change {dx[i]:.3g} V)" for i in worst) or "none identified"
         names = {net.nodes[i] for i in worst}
-        devices = sorted({e.name for e in self.circuit.elements if e.kind in "mqd" and names.intersection(e.nodes)})[:6]
+        devices = sorted({e.name for e in self.circuit.general if e.kind in "mqd" and names.intersection(e.nodes)})[:6]
         return ConvergenceError(
             f"the DC operating point did not converge (Newton, gmin stepping and source stepping all failed; "
             f"last step tried: {exc.step}); nodes that would not settle: {nodes}; devices there: {', '.join(devices) or 'none'}; "
@@ -299,7 +299,7 @@ class DCSolver:
         devices = []
         for g in self.groups:
             devices.extend(g.report(x_net, net))
-        order = {e.name: k for k, e in enumerate(self.circuit.elements)}
+        order = {e.name: k for k, e in enumerate(self.circuit.general)}
         devices.sort(key=lambda d: order[d.name])
         warnings = list(self.warnings)
         for d in devices:

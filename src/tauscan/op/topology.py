@@ -8,6 +8,7 @@ from scipy.sparse.csgraph import connected_components
 
 from tauscan.circuit import GROUND, Circuit, Element
 from tauscan.errors import CircuitError
+from tauscan.network import Network
 
 #: Element kind -> pairs of terminal positions that conduct at DC.
 _DC_PAIRS = {
@@ -38,13 +39,14 @@ class _UnionFind:
         return True
 
 
-def floating_nodes(circuit: Circuit) -> list[str]:
-    """Nodes with no DC path to ground (through resistors, sources, inductors, device channels and junctions)."""
-    names = circuit.nodes()
-    index = {n: i for i, n in enumerate(names)}
+def floating_nodes(circuit: Circuit, net: Network) -> list[str]:
+    """Nodes with no DC path to ground (through resistors, sources, inductors, device channels
+    and junctions); ``net`` is the circuit's numbering (device-internal nodes not yet added)."""
+    names = net.nodes
+    index = net.index
     a: list[int] = []
     b: list[int] = []
-    for e in circuit.elements:
+    for e in circuit.general:
         pairs = _DC_PAIRS.get(e.kind)
         if pairs is None:
             continue
@@ -54,7 +56,9 @@ def floating_nodes(circuit: Circuit) -> list[str]:
                 a.append(index[nodes[p]])
                 b.append(index[nodes[q]])
     n = len(names)
-    graph = sp.csr_matrix((np.ones(len(a)), (np.array(a, dtype=np.int64), np.array(b, dtype=np.int64))), shape=(n, n))
+    rows = np.concatenate([np.array(a, dtype=np.int64), net.passive_a[net.passive_r]])
+    cols = np.concatenate([np.array(b, dtype=np.int64), net.passive_b[net.passive_r]])
+    graph = sp.csr_matrix((np.ones(len(rows)), (rows, cols)), shape=(n, n))
     _, labels = connected_components(graph, directed=False)
     ground = labels[index[GROUND]]
     return [names[i] for i in np.flatnonzero(labels != ground).tolist()]
@@ -64,7 +68,7 @@ def check_voltage_loops(circuit: Circuit) -> None:
     """Raise when voltage sources, E/H outputs and inductors form a loop (the DC matrix is singular)."""
     uf = _UnionFind()
     loop: list[Element] = []
-    for e in circuit.elements:
+    for e in circuit.general:
         if e.kind in ("v", "e", "h", "l"):
             a, b = e.nodes[0], e.nodes[1]
             if a == b:
@@ -84,7 +88,7 @@ def check_voltage_loops(circuit: Circuit) -> None:
 def check_current_sources(circuit: Circuit, floating: list[str]) -> None:
     """Raise when a current source drives a node that has no DC path (current sources in series)."""
     lost = set(floating)
-    for e in circuit.elements:
+    for e in circuit.general:
         if e.kind in ("i", "g", "f") and e.value:
             for node in e.nodes[:2]:
                 if node in lost:

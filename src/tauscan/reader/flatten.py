@@ -9,22 +9,26 @@ places which.
 from __future__ import annotations
 
 import math
+from itertools import repeat
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
 from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field
-from tauscan.reader.lines import Card
+from tauscan.reader.lines import Card, PlainRun
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
-from tauscan.units import number_cache as _NUMBERS
+from tauscan.units import parse_number
 
-_INF = math.inf
+#: Values of plain lines already met (text -> a finite float); bounded like parse_number's memo.
+_PLAIN_VALUES: dict[str, float] = {}
+_PLAIN_VALUES_MAX = 200_000
 
 #: Deepest chain of nested subcircuit instances.
 MAX_DEPTH = 1000
 
 GROUND_NAMES = frozenset(["0", "gnd", "gnd!"])
+_GROUND_OF = {name: GROUND for name in GROUND_NAMES}
 
 
 class Frame:
@@ -51,6 +55,15 @@ class Frame:
         mapped = self._map_node(raw)
         self._nodes[raw] = mapped
         return mapped
+
+    def nodes(self, raws: list[str]) -> list[str]:
+        """:meth:`node` of every name of a column (lower case already)."""
+        if self.parent is None:  # the top level: only the names of ground change
+            return list(map(_GROUND_OF.get, raws, raws))
+        known = self._nodes
+        for raw in set(raws).difference(known):
+            self.node(raw)
+        return list(map(known.__getitem__, raws))
 
     def _map_node(self, raw: str) -> str:
         name = raw.lower()
@@ -82,7 +95,9 @@ class Flattener:
         self.circuit = Circuit(netlist.title, netlist.file)
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
-        self.seen: dict[str, Card] = {}
+        #: element name -> its card, or its row in the table of plain passives
+        self.seen: dict[str, Card | int] = {}
+        self.seq = 0  # position of the next element in the flat circuit
 
     # -- models ----------------------------------------------------------------
     def model_for(self, frame: Frame, name: str) -> str | None:
@@ -127,29 +142,21 @@ class Flattener:
         for name in top.models:
             root.model(name)
         stack: list[tuple[Frame, int]] = [(root, 0)]
-        seen = self.seen
-        elements = self.circuit.elements
         while stack:
             frame, index = stack.pop()
             cards = frame.definition.elements
             while index < len(cards):
-                name, fields, card = cards[index]
+                item = cards[index]
                 index += 1
-                letter = name[0]
-                if letter == "x":
+                if type(item) is PlainRun:
+                    self._plain_run(frame, item)
+                    continue
+                name, fields, card = item
+                if name[0] == "x":
                     child = self._instance(frame, name, fields, card)
                     stack.append((frame, index))
                     stack.append((child, 0))
                     break
-                if (letter == "r" or letter == "c") and len(fields) == 4 and fields[1][0] == "w" \
-                        and fields[2][0] == "w" and fields[3][0] == "w":
-                    element = self._two_terminal(frame, letter, name, fields, card)
-                    if element.name in seen or element.value == 0:
-                        self._add(element, card)  # the general path says what is wrong
-                    else:
-                        seen[element.name] = card
-                        elements.append(element)
-                    continue
                 self._add(self._element(frame, name, fields, card), card)
         return self.circuit
 
@@ -168,19 +175,76 @@ class Flattener:
                 except TauscanError:
                     self.circuit.options[key] = str(f[1])
 
+    def _plain_run(self, frame: Frame, run: PlainRun) -> None:
+        """A run of plain R and C lines, column by column, into the circuit's table: the
+        checks of :func:`~tauscan.reader.elements.passive`, without an object per line."""
+        columns, lo, hi = run.columns, run.lo, run.hi
+        count = hi - lo
+        names = columns.names[lo:hi]
+        if frame.prefix:
+            names = list(map(frame.prefix.__add__, names))
+        words = columns.values[lo:hi]
+        values = list(map(_PLAIN_VALUES.get, words))
+        if None in values:
+            self._plain_values(frame, run, words, values)
+        kinds = columns.kinds[lo:hi]
+        if 0.0 in values or min(values) < 0.0:
+            for k, (kind, value) in enumerate(zip(kinds, values)):
+                if kind == "c" and value == 0.0:
+                    self.circuit.warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
+                elif (kind == "r" and value == 0.0) or (kind == "c" and value < 0.0):
+                    card = run.card(k)
+                    check_passive_value(kind, value, card, card.text.rindex(words[k]))
+        table = self.circuit.passives
+        first = len(table)
+        seen = self.seen
+        before = len(seen)
+        seen.update(zip(names, range(first, first + count)))
+        if len(seen) != before + count:
+            self._duplicate_in_run(run, names, first)
+        table.kinds += kinds
+        table.names += names
+        table.a += frame.nodes(columns.a[lo:hi])
+        table.b += frame.nodes(columns.b[lo:hi])
+        table.values += values
+        table.files += repeat(run.file, count)
+        table.lines += columns.lines[lo:hi]
+        table.seq += range(self.seq, self.seq + count)
+        self.seq += count
+
     @staticmethod
-    def _two_terminal(frame: Frame, letter: str, name: str, fields: list[Field], card: Card) -> Element:
-        """``Rname a b value`` / ``Cname a b value``, the bulk of an extracted netlist: what
-        :func:`~tauscan.reader.elements.passive` does for them, without its general cases."""
-        f = fields[3]
-        value = _NUMBERS.get(f[1])  # most values are plain numbers seen before
-        if value is None or not -_INF < value < _INF:
-            value = field_value(f, card, frame.scope)
-        check_passive_value(letter, value, card, f[2])
-        known = frame._nodes
-        a = known.get(fields[1][1]) or frame.node(fields[1][1])
-        b = known.get(fields[2][1]) or frame.node(fields[2][1])
-        return Element(frame.prefix + name, letter, (a, b), value, None, {}, card.file, card.line, None, (), card.comment)
+    def _plain_values(frame: Frame, run: PlainRun, words: list[str], values: list) -> None:
+        """Fill in the values not met before: new numbers, and names of parameters."""
+        for k, word in enumerate(words):
+            if values[k] is not None:
+                continue
+            value = parse_number(word)
+            if value is None or not math.isfinite(value):
+                card = run.card(k)
+                value = field_value(("w", word, card.text.rindex(word)), card, frame.scope)
+            elif len(_PLAIN_VALUES) < _PLAIN_VALUES_MAX:
+                _PLAIN_VALUES[word] = value
+            values[k] = value
+
+    def _duplicate_in_run(self, run: PlainRun, names: list[str], first: int) -> None:
+        """Raise for the first name of a run met before (in the run or earlier)."""
+        table = self.circuit.passives
+        before = set(table.names)
+        before.update(e.name for e in self.circuit.general)
+        for k, name in enumerate(names):
+            if name in before:
+                if name in table.names:
+                    row = table.names.index(name)
+                    where = f"{table.files[row]}:{table.lines[row]}"
+                else:
+                    element = next(e for e in self.circuit.general if e.name == name)
+                    where = f"{element.file}:{element.line}"
+            elif name in names[:k]:
+                j = names.index(name)
+                where = f"{run.file}:{run.columns.lines[run.lo + j]}"
+            else:
+                continue
+            raise run.card(k).error(NetlistSyntaxError, f"element {name!r} is defined twice (first at {where})", 0)
 
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
         pos: list[Field] = []
@@ -192,15 +256,18 @@ class Flattener:
     def _add(self, element: Element, card: Card) -> None:
         first = self.seen.get(element.name)
         if first is not None:
-            raise card.error(
-                NetlistSyntaxError,
-                f"element {element.name!r} is defined twice (first at {first.file}:{first.line})",
-                0,
-            )
+            if isinstance(first, int):
+                table = self.circuit.passives
+                where = f"{table.files[first]}:{table.lines[first]}"
+            else:
+                where = f"{first.file}:{first.line}"
+            raise card.error(NetlistSyntaxError, f"element {element.name!r} is defined twice (first at {where})", 0)
         self.seen[element.name] = card
         if element.kind == "c" and element.value == 0:
             self.circuit.warnings.append(f"{card.file}:{card.line}: capacitor {element.name} has zero value")
-        self.circuit.elements.append(element)
+        element.seq = self.seq
+        self.seq += 1
+        self.circuit.general.append(element)
 
     def _instance(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Frame:
         pos = [f for f in fields[1:] if f[0] != "p"]
@@ -240,9 +307,10 @@ class Flattener:
 def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
     """The definitions that ``definition``'s instance lines place (unknown names skipped)."""
     out = []
-    for name, fields, card in definition.elements:
-        if name[0] != "x":
+    for item in definition.elements:
+        if type(item) is PlainRun or item[0][0] != "x":
             continue
+        name, fields, card = item
         pos = [f for f in fields[1:] if f[0] not in ("p",)]
         if pos and pos[-1][0] == "w":
             target = definition.find_subckt(pos[-1][1].lower())

@@ -4,14 +4,21 @@ It decodes the file, drops comment lines, strips inline comments (kept aside,
 because waivers live there), joins ``+`` continuation lines (comment and blank
 lines may stand between them) and remembers, for every character of the joined
 text, the original line and column, so that errors point into the real file.
+
+Plain two-terminal lines (:data:`PLAIN_LINE`) get no card: a chunk's plain lines are
+split into columns at once (:class:`PlainColumns`) and handed on as runs
+(:class:`PlainRun`) between the cards, in file order.
 """
 
 from __future__ import annotations
 
 import bisect
 import os
+import re
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
+from itertools import chain, compress
+from operator import itemgetter, not_
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
 
@@ -50,6 +57,65 @@ class Card:
         return cls(message, self.file, line, col, src)
 
 
+#: A word of a plain line: the grammar's WORD (grammar/netlist.lark) without ';' and '$'
+#: (which may start comments).  A test holds lines this matches to what the grammar reads.
+_PLAIN_WORD = r"""(?:[^\s=(){}'",.;$][^\s=(){}'",;$]*|\.[^\sA-Za-z_=(){}'",;$][^\s=(){}'",;$]*)"""
+#: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else.
+PLAIN_LINE = re.compile(
+    rf"""([RrCc][^\s=(){{}}'",;$]*)[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
+_GROUPS = re.Match.groups
+
+
+class PlainColumns:
+    """The plain lines of one chunk in columns: names and nodes lower case, the value's text
+    as written, and the physical line numbers."""
+
+    __slots__ = ("kinds", "names", "a", "b", "values", "lines")
+
+    def __init__(self, matches: list, numbers: list[int]) -> None:
+        groups = list(map(_GROUPS, matches))
+        self.names: list[str] = list(map(str.lower, map(itemgetter(0), groups)))
+        self.kinds: list[str] = list(map(itemgetter(0), self.names))
+        self.a: list[str] = list(map(str.lower, map(itemgetter(1), groups)))
+        self.b: list[str] = list(map(str.lower, map(itemgetter(2), groups)))
+        self.values: list[str] = list(map(itemgetter(3), groups))
+        self.lines: list[int] = numbers
+
+
+@dataclass(slots=True)
+class PlainRun:
+    """Consecutive plain lines of one file (rows ``lo`` to ``hi`` of a chunk's columns)."""
+
+    columns: PlainColumns
+    lo: int
+    hi: int
+    file: str
+
+    def __len__(self) -> int:
+        return self.hi - self.lo
+
+    def card(self, k: int) -> Card:
+        """Row ``k`` of the run as a card, for an error or a warning about it: the line is read
+        again from the file (plain lines keep only their words)."""
+        number = self.columns.lines[self.lo + k]
+        raw = _physical_line(self.file, number)
+        if raw is None:
+            c = self.columns
+            i = self.lo + k
+            raw = " ".join((c.names[i], c.a[i], c.b[i], c.values[i]))
+        return Card(raw, self.file, number, "", raw)
+
+
+def _physical_line(path: str, number: int) -> str | None:
+    try:
+        for k, raw in enumerate(read_lines(path), 1):
+            if k == number:
+                return raw
+    except (IncludeError, NetlistSyntaxError):  # the file changed or vanished since: the caller rebuilds the line
+        return None
+    return None
+
+
 #: Bytes read and decoded at a time: the file is never held whole, in bytes or in text.
 CHUNK_BYTES = 4 << 20
 
@@ -77,10 +143,15 @@ def decode(data: bytes, file: str, first_line: int = 1) -> str:
 
 
 def read_lines(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[str]:
-    """The lines of one netlist file, read and decoded a chunk at a time (so that no more
-    than one chunk of the file is ever held besides what the caller keeps).  The file is
-    opened at once, so that a missing file is an error of this call; ``progress(done,
-    total)`` is told the bytes read after each chunk."""
+    """The lines of one netlist file (see :func:`read_chunks`)."""
+    return chain.from_iterable(read_chunks(path, shown, progress))
+
+
+def read_chunks(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[list[str]]:
+    """The lines of one netlist file, a chunk's list at a time, read and decoded a chunk at
+    a time (so that no more than one chunk of the file is ever held besides what the caller
+    keeps).  The file is opened at once, so that a missing file is an error of this call;
+    ``progress(done, total)`` is told the bytes read after each chunk."""
     shown = shown or path
     try:
         handle = open(path, "rb")
@@ -100,7 +171,7 @@ def read_lines(path: str, shown: str | None = None, progress: Callable[[int, int
     return _chunked_lines(handle, shown, size, progress)
 
 
-def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
+def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[list[str]]:
     line = 1
     done = 0
     pending = b""
@@ -115,7 +186,7 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
                 raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
             if not chunk:
                 if pending:
-                    yield from decode(pending, shown, line).splitlines()
+                    yield decode(pending, shown, line).splitlines()
                 return
             data = pending + chunk if pending else chunk
             cut = data.rfind(b"\n") + 1
@@ -134,7 +205,7 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[str]:
             lines = text.splitlines()  # the chunk ends with a line end: one entry per line
             del text
             line += len(lines)
-            yield from lines
+            yield lines
             del lines
             if progress is not None:
                 progress(done, size)
@@ -166,54 +237,116 @@ def _split_comment(raw: str) -> tuple[str, str]:
     return raw, ""
 
 
-def logical_lines(lines: str | Iterable[str], file: str, *, has_title: bool) -> tuple[str, list[Card]]:
-    """Cards of one file in order, and its title (the first line) when ``has_title``.
-
-    ``lines`` is the file's text or its lines (as :func:`read_lines` gives them).
-    ``.end`` stops reading; ``.control`` ... ``.endc`` blocks are skipped whole.
-    """
-    title = ""
-    cards: list[Card] = []
+def logical_lines(lines: str | list[str], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
+    """Cards and plain runs of one file's text (or list of lines), and its title
+    (see :func:`logical_items`)."""
     if isinstance(lines, str):
         lines = lines.splitlines()
-    current: Card | None = None
-    in_control = False
-    first = 1 if has_title else 0
-    for number, raw in enumerate(lines, 1):
-        if number == first:
-            title = raw.strip()
-            continue
-        # the bulk of a netlist: an element line with no comment, taken as it is
-        if raw[:1].isalpha() and not in_control and ";" not in raw and "$" not in raw and len(raw) <= MAX_LINE_CHARS:
-            current = Card(raw, file, number, "", raw)
-            cards.append(current)
-            continue
-        if len(raw) > MAX_LINE_CHARS:
-            raise NetlistSyntaxError(
-                f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}",
-                file,
-                number,
-                1,
-                raw[:60],
-            )
-        stripped = raw.lstrip()
-        if not stripped or stripped[0] == "*":
-            continue
-        head = stripped[:6].lower()
-        if in_control:
-            if head.startswith(".endc"):
-                in_control = False
-            continue
-        if head.startswith(".contr"):
-            in_control = True
-            continue
+    return logical_items([lines], file, has_title=has_title)
+
+
+def logical_items(chunks: Iterable[list[str]], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
+    """Cards and runs of plain lines of one file in order, and its title (the first line)
+    when ``has_title``.
+
+    ``chunks`` are the file's lines, a list at a time (as :func:`read_chunks` gives them).
+    ``.end`` stops reading; ``.control`` ... ``.endc`` blocks are skipped whole.
+    """
+    state = _PrePass(file, has_title)
+    for lines in chunks:
+        if not state.chunk(lines):
+            break
+    return state.title, state.items
+
+
+class _PrePass:
+    """The state of the pre-pass across chunks: the card being continued, a ``.control``
+    block, the title, and the items so far."""
+
+    def __init__(self, file: str, has_title: bool) -> None:
+        self.file = file
+        self.has_title = has_title
+        self.title = ""
+        self.items: list[Card | PlainRun] = []
+        self.current: Card | None = None
+        self.in_control = False
+        self.number = 0  # physical lines before the chunk at hand
+
+    def chunk(self, lines: list[str]) -> bool:
+        """Take one chunk of lines; False once ``.end`` is read."""
+        first = self.number + 1
+        self.number += len(lines)
+        matches = list(map(PLAIN_LINE.fullmatch, lines))
+        if first == 1 and self.has_title and matches:
+            matches[0] = None  # the title is never a card
+        if max(map(len, lines), default=0) > MAX_LINE_CHARS:  # the line-by-line path says which
+            matches = [None] * len(lines)
+        at = list(compress(range(len(lines)), matches))
+        columns = PlainColumns(list(compress(matches, matches)), [first + i for i in at]) if at else None
+        start = 0  # the first line of the chunk not yet taken into a run or a card
+        lo = 0  # the first plain row from there
+        for i in compress(range(len(lines)), map(not_, matches)):
+            raw = lines[i]
+            number = first + i
+            if number == 1 and self.has_title:
+                self.title = raw.strip()
+                start = i + 1
+                continue
+            if len(raw) > MAX_LINE_CHARS:
+                raise NetlistSyntaxError(
+                    f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file, number, 1,
+                    raw[:60])
+            stripped = raw.lstrip()
+            if not stripped or stripped[0] == "*":
+                continue
+            head = stripped[:6].lower()
+            if self.in_control:
+                if head.startswith(".endc"):
+                    self.in_control = False
+                    start = i + 1
+                    lo = bisect.bisect_left(at, start, lo)
+                continue
+            # the plain lines before this one form a run (the last of them is a card of its own
+            # when this line continues it)
+            hi = bisect.bisect_left(at, i, lo)
+            if stripped[0] == "+" and hi > lo:
+                self._run(columns, lo, hi - 1)
+                self.current = self._plain_card(lines, at[hi - 1], first)
+            else:
+                self._run(columns, lo, hi)
+            lo = hi
+            start = i + 1
+            if head.startswith(".contr"):
+                self.in_control = True
+                continue
+            if not self._line(raw, stripped, head, number):
+                return False
+        if not self.in_control:
+            # the last plain line stays a card: the next chunk may continue it
+            hi = len(at)
+            if hi > lo:
+                self._run(columns, lo, hi - 1)
+                self.current = self._plain_card(lines, at[hi - 1], first)
+        return True
+
+    def _run(self, columns: PlainColumns | None, lo: int, hi: int) -> None:
+        if hi > lo and columns is not None:
+            self.items.append(PlainRun(columns, lo, hi, self.file))
+
+    def _plain_card(self, lines: list[str], i: int, first: int) -> Card:
+        card = Card(lines[i], self.file, first + i, "", lines[i])
+        self.items.append(card)
+        return card
+
+    def _line(self, raw: str, stripped: str, head: str, number: int) -> bool:
+        """One line that is not plain, not a comment and not in a ``.control`` block."""
+        file = self.file
         body, comment = _split_comment(raw)
         if stripped[0] == "+":
             plus = raw.index("+")
+            current = self.current
             if current is None:
-                raise NetlistSyntaxError(
-                    "continuation line '+' with no card before it", file, number, plus + 1, raw
-                )
+                raise NetlistSyntaxError("continuation line '+' with no card before it", file, number, plus + 1, raw)
             piece = body[plus + 1 :]
             if current.segments is None or current.physical is None:
                 current.segments = [(0, current.line, 0)]
@@ -223,13 +356,12 @@ def logical_lines(lines: str | Iterable[str], file: str, *, has_title: bool) -> 
             current.text += " " + piece
             if comment:
                 current.comment = (current.comment + " " + comment).strip()
-            continue
+            return True
         if not body.strip():
-            # a line holding only an inline comment
-            continue
+            return True  # a line holding only an inline comment
         if head.startswith(".end") and (len(head) == 4 or not head[4].isalnum()):
-            current = None
-            break
-        current = Card(body, file, number, comment, raw)
-        cards.append(current)
-    return title, cards
+            self.current = None
+            return False
+        self.current = Card(body, file, number, comment, raw)
+        self.items.append(self.current)
+        return True

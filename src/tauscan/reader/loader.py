@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
 from tauscan.reader.fields import Field, card_fields
-from tauscan.reader.lines import Card, logical_lines, read_lines
+from tauscan.reader.lines import Card, PlainRun, logical_items, read_chunks
 
 #: Deepest chain of nested ``.include`` files.
 MAX_INCLUDE_DEPTH = 64
@@ -38,7 +38,8 @@ class Definition:
     params: dict[str, tuple[Field, Card]] = field(default_factory=dict)
     models: dict[str, tuple[list[Field], Card]] = field(default_factory=dict)
     subckts: dict[str, "Definition"] = field(default_factory=dict)
-    elements: list[tuple[str, list[Field], Card]] = field(default_factory=list)
+    #: element cards as ``(name, fields, card)``, and runs of plain lines, in file order
+    elements: list[tuple[str, list[Field], Card] | PlainRun] = field(default_factory=list)
 
     def find_subckt(self, name: str) -> "Definition | None":
         scope: Definition | None = self
@@ -92,7 +93,7 @@ class Loader:
         self.netlist: Netlist | None = None
 
     def load(self) -> Netlist:
-        title, cards = logical_lines(read_lines(self.path, progress=self.progress), self.path, has_title=True)
+        title, cards = logical_items(read_chunks(self.path, progress=self.progress), self.path, has_title=True)
         if not title and not cards:
             raise NetlistSyntaxError("the netlist is empty", self.path, 1, 1, "")
         top = Definition("", [], None, None)
@@ -113,9 +114,13 @@ class Loader:
         return self.netlist
 
     # -- card dispatch ---------------------------------------------------------
-    def _cards(self, cards: list[Card]) -> None:
+    def _cards(self, cards: list[Card | PlainRun]) -> None:
         skip_section: Card | None = None
         for card in cards:
+            if type(card) is PlainRun:
+                if skip_section is None:
+                    self.stack[-1].elements.append(card)
+                continue
             text = card.text.lstrip()
             if skip_section is not None:
                 if text[:5].lower() == ".endl":
@@ -239,10 +244,10 @@ class Loader:
         if not os.path.isfile(path):
             raise card.error(IncludeError, f"{what} file not found: {path}", name_field[2])
         try:
-            lines = read_lines(path)
+            chunks = read_chunks(path)
         except IncludeError as exc:
             raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field[2]) from None
-        _, cards = logical_lines(lines, path, has_title=False)
+        _, cards = logical_items(chunks, path, has_title=False)
         if section is not None:
             # only the netlist's own '.lib' cards: a library's sections select each other
             if self.lib_depth == 0:
@@ -263,12 +268,16 @@ class Loader:
             self.lib_depth -= section is not None
 
     @staticmethod
-    def _section(cards: list[Card], section: str, card: Card, name_field: Field, path: str) -> list[Card]:
-        chosen: list[Card] = []
+    def _section(cards: list[Card | PlainRun], section: str, card: Card, name_field: Field, path: str) -> list[Card | PlainRun]:
+        chosen: list[Card | PlainRun] = []
         inside = False
         found = False
         sections: list[str] = []
         for c in cards:
+            if type(c) is PlainRun:
+                if inside:
+                    chosen.append(c)
+                continue
             words = c.text.split()
             head = words[0].lower() if words else ""
             if not inside and head == ".lib" and len(words) == 2:
@@ -289,9 +298,11 @@ class Loader:
         return chosen
 
 
-def _section_names(cards: list[Card]) -> set[str]:
+def _section_names(cards: list[Card | PlainRun]) -> set[str]:
     names = set()
     for c in cards:
+        if type(c) is PlainRun:
+            continue
         words = c.text.split()
         if len(words) == 2 and words[0].lower() == ".lib":
             names.add(words[1].lower())

@@ -1,0 +1,133 @@
+"""Plain R and C lines are read in columns, without the grammar: the columns must hold exactly
+what the card path (the grammar and the element rules) makes of the same lines, in the same
+order, with the same errors."""
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from tauscan.errors import ExpressionError, NetlistSyntaxError
+from tauscan.reader import lines as lines_mod
+from tauscan.reader import read_netlist
+from tauscan.reader.fields import grammar_fields
+from tauscan.reader.lines import PLAIN_LINE, Card
+
+from tests.conftest import examples
+
+# words that a netlist may hold: names with the punctuation extractors use, numbers with
+# suffixes, and the characters the grammar treats apart
+word = st.text(alphabet="abcxyzRC019_.<>#:!$@-+*/;={}()'\",", min_size=1, max_size=6)
+sep = st.sampled_from([" ", "  ", "\t", " \t"])
+
+
+@st.composite
+def two_terminal_lines(draw):
+    parts = [draw(st.sampled_from("RrCcMx")) + draw(word)] + [draw(word) for _ in range(draw(st.integers(2, 4)))]
+    text = "".join(p + draw(sep) for p in parts)
+    return text if draw(st.booleans()) else text.rstrip()
+
+
+def _agree(text: str) -> None:
+    match = PLAIN_LINE.fullmatch(text)
+    if match is None:
+        return  # the card path reads it
+    kind, fields = grammar_fields(Card(text, "f", 1))
+    assert kind == "element", text
+    assert [f[0] for f in fields] == ["w"] * 4, text
+    assert [f[1] for f in fields] == list(match.groups()), text
+
+
+@settings(max_examples=examples(600), deadline=None)
+@given(two_terminal_lines())
+def test_a_plain_line_is_what_the_grammar_reads(text):
+    _agree(text)
+
+
+def test_plain_and_not_plain():
+    plain = ["R1 a b 1k", "c_par.3 n<1> 0 .5f", "Rx a b rval", "C9\tx y 1e-15  "]
+    for text in plain:
+        assert PLAIN_LINE.fullmatch(text), text
+        _agree(text)
+    for text in ["R1 a b 1k ; c", "R1 a b 1k m=2", "R1 a b {r}", "R1 a b", "R1 a b 1 2", " R1 a b 1",
+                 "M1 a b c d", "R1 a .b 1", "R1 a b 'r'", "L1 a b 1n", "R1 a $b 1"]:
+        assert PLAIN_LINE.fullmatch(text) is None, text
+
+
+NETLIST = """mixed plain and card lines
+.param rval=2k
+.global vdd
+.subckt cell in out
+Rin in mid 1k
+Cm mid out 0.5p
+R2 mid vdd {rval}
+Cg mid gnd 2f
+.ends
+V1 vdd 0 1.8
+Ra vdd n1 rval
+Ca n1 0 1p
+X1 n1 n2 cell
+X2 n2 n3 cell
+Rb n3 0 10k
+* a comment inside a run
+Cb n3 gnd 3f
+Rc n3 n4 1k
++ m=2
+.control
+R9 a b 1
+.endc
+Cz n4 0 0
+Rd n4 0 1meg
+.end
+Rafter a b 1
+"""
+
+
+def _all(circuit):
+    return [(e.name, e.kind, e.nodes, e.value, e.params, e.line, e.seq) for e in circuit.elements]
+
+
+@pytest.mark.parametrize("chunk", [7, 40, 1 << 20])
+def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
+    monkeypatch.setattr(lines_mod, "CHUNK_BYTES", chunk)
+    plain = tmp_path / "plain.sp"
+    plain.write_text(NETLIST)
+    # the same netlist with every line made not plain (an inline comment on each element line)
+    carded = tmp_path / "carded.sp"
+    carded.write_text("".join(line + (" ; card\n" if line[:1] in "RC" else "\n") for line in NETLIST.splitlines()))
+    a = read_netlist(str(plain))
+    b = read_netlist(str(carded))
+    assert len(a.passives) > 0 and len(b.passives) == 0
+    assert _all(a) == _all(b)
+    assert a.nodes() == b.nodes()
+    assert [w.replace("plain.sp", "x") for w in a.warnings] == [w.replace("carded.sp", "x") for w in b.warnings]
+    names = [e.name for e in a.elements]
+    # hand-derived: subcircuit rows take the instance path, nodes the pins, globals and ground
+    assert names == ["v1", "ra", "ca", "x1.rin", "x1.cm", "x1.r2", "x1.cg", "x2.rin", "x2.cm", "x2.r2", "x2.cg",
+                     "rb", "cb", "rc", "cz", "rd"]
+    by_name = {e.name: e for e in a.elements}
+    assert by_name["x2.cm"].nodes == ("x2.mid", "n3")
+    assert by_name["x1.cg"].nodes == ("x1.mid", "0")
+    assert by_name["x1.r2"].value == 2000.0 and by_name["x1.r2"].nodes == ("x1.mid", "vdd")
+    assert by_name["ra"].value == 2000.0
+    assert by_name["rc"].params == {"m": 2.0}  # continued: a card, not a plain row
+    assert by_name["rd"].value == 1e6
+    assert any("capacitor cz has zero value" in w for w in a.warnings)
+
+
+@pytest.mark.parametrize("text, line, col, error, message", [
+    ("t\nR1 a b 1k\nR2  b  c  0\n", 3, 11, NetlistSyntaxError, "zero resistance"),
+    ("t\nC1 a b -1p\n", 2, 8, NetlistSyntaxError, "negative capacitance"),
+    ("t\nR1 a b 1\nC2 a b 1p\nR1 b c 2\n", 4, 1, NetlistSyntaxError, "first at {}:2"),
+    ("t\nR1 a b 1\nR1 b c 2 ; card\n", 3, 1, NetlistSyntaxError, "first at {}:2"),
+    ("t\nR1 a b 1 ; card\nR1 b c 2\n", 3, 1, NetlistSyntaxError, "first at {}:2"),
+    ("t\nR1 a b 1\nR2 b c 2\nR2 c d 3\n", 4, 1, NetlistSyntaxError, "first at {}:3"),
+    ("t\nR1 a b 1\nR2 b c\tnowhere\n", 3, 8, ExpressionError, "undefined parameter 'nowhere'"),
+    ("t\nC1 a b 1e999\n", 2, 8, NetlistSyntaxError, "out of range"),
+])
+def test_errors_in_plain_lines_are_located(write, text, line, col, error, message):
+    path = write(text)
+    with pytest.raises(error) as info:
+        read_netlist(path)
+    assert (info.value.line, info.value.col) == (line, col)
+    assert message.format(path) in info.value.message
+    assert info.value.text == text.splitlines()[line - 1]

@@ -24,6 +24,31 @@ from tauscan.network import Network, Triplets
 D, G, S, B = 0, 1, 2, 3
 
 
+def _model_columns(model, element: Element, temp_c: float, warnings: list[str]) -> dict[str, float]:
+    """A model's level-1 parameters at ``temp_c``, as the numbers every device of it shares
+    (``element``: the first device that uses it, named by a wrong-type error)."""
+    p = cards.mos_parameters(model, element, warnings)
+    tnom = p["tnom"] if p["tnom"] is not None else physics.TNOM_C
+    cox_area = physics.EPS_OX / p["tox"] if p["tox"] else 0.0
+    kp = p["kp"]
+    if kp is None:
+        kp = p["uo"] * 1e-4 * cox_area if cox_area else 2e-5
+    ratio = (temp_c + physics.CELSIUS_TO_KELVIN) / (tnom + physics.CELSIUS_TO_KELVIN)
+    kp = kp * ratio ** -1.5  # mobility ~ T^-1.5 (common practice)
+    typ = cards.MOS_TYPES[model.type]
+    nan = float("nan")
+    return {
+        "type": typ, "vto": typ * p["vto"], "kp": kp, "gamma": p["gamma"], "phi": max(p["phi"], 0.1),
+        "lambda": p["lambda"], "ld": p["ld"], "cox_area": cox_area, "cgso": p["cgso"], "cgdo": p["cgdo"],
+        "cgbo": p["cgbo"], "js": p["js"], "is": p["is"],
+        # IS(T) is linear in IS: one factor per model
+        "is_scale": float(physics.scale_saturation_current(1.0, temp_c, tnom, 1.11, 3.0, 1.0)),
+        "cbd": nan if p["cbd"] is None else p["cbd"], "cbs": nan if p["cbs"] is None else p["cbs"],
+        "cj": p["cj"], "cjsw": p["cjsw"], "pb": float(physics.scale_junction_potential(p["pb"], temp_c, tnom)),
+        "mj": p["mj"], "mjsw": p["mjsw"], "fc": p["fc"], "rd": p["rd"], "rs": p["rs"], "rsh": p["rsh"],
+    }
+
+
 class MosGroup:
     kind = "mos"
     terminals = ("d", "g", "s", "b")
@@ -33,70 +58,56 @@ class MosGroup:
         n = len(elements)
         vt = physics.thermal_voltage(temp_c)
         self.vt = vt
-        cols = {k: np.zeros(n) for k in (
-            "type", "vto", "kp", "gamma", "phi", "lam", "beta", "cox", "cgso", "cgdo", "cgbo",
-            "isd", "iss", "cbd0", "cbs0", "cbdsw", "cbssw", "pb", "mj", "mjsw", "fc", "rd", "rs", "w", "leff", "mult",
-        )}
-        self.models = []
-        ext = np.zeros((n, 4), dtype=np.int64)
-        self.nodes = np.zeros((n, 4), dtype=np.int64)
+        # each model's parameters once, then every quantity as a column over the devices
+        model_of: dict[str, int] = {}
+        per_model: list[dict[str, float]] = []
+        which = np.empty(n, dtype=np.int64)
         for i, e in enumerate(elements):
-            model = circuit.models[e.model]
-            p = cards.mos_parameters(model, e, warnings)
-            self.models.append(model.name)
-            inst = dict(cards.MOS_INSTANCE)
-            inst.update({k: v for k, v in e.params.items()})
-            tnom = p["tnom"] if p["tnom"] is not None else physics.TNOM_C
-            w, l_drawn, mult = inst["w"], inst["l"], inst["m"]
-            leff = l_drawn - 2.0 * p["ld"]
-            if leff <= 0:
-                raise CircuitError(f"{e.name}: effective channel length L - 2*LD = {leff:g} m is not positive", e.file, e.line)
-            if w <= 0 or mult <= 0:
-                raise CircuitError(f"{e.name}: W and M must be positive", e.file, e.line)
-            cox_area = physics.EPS_OX / p["tox"] if p["tox"] else 0.0
-            kp = p["kp"]
-            if kp is None:
-                kp = p["uo"] * 1e-4 * cox_area if cox_area else 2e-5
-            ratio = (temp_c + physics.CELSIUS_TO_KELVIN) / (tnom + physics.CELSIUS_TO_KELVIN)
-            kp = kp * ratio ** -1.5  # mobility ~ T^-1.5 (common practice)
-            typ = cards.MOS_TYPES[model.type]
-            cols["type"][i] = typ
-            cols["vto"][i] = typ * p["vto"]
-            cols["kp"][i] = kp
-            cols["gamma"][i] = p["gamma"]
-            cols["phi"][i] = max(p["phi"], 0.1)
-            cols["lam"][i] = p["lambda"]
-            cols["beta"][i] = kp * w / leff * mult
-            cols["cox"][i] = cox_area * w * leff * mult
-            cols["cgso"][i] = p["cgso"] * w * mult
-            cols["cgdo"][i] = p["cgdo"] * w * mult
-            cols["cgbo"][i] = p["cgbo"] * leff * mult
-            i_sat = lambda area: (p["js"] * area if p["js"] > 0 and area > 0 else p["is"]) * mult  # noqa: E731
-            cols["isd"][i] = physics.scale_saturation_current(i_sat(inst["ad"]), temp_c, tnom, 1.11, 3.0, 1.0)
-            cols["iss"][i] = physics.scale_saturation_current(i_sat(inst["as"]), temp_c, tnom, 1.11, 3.0, 1.0)
-            cols["cbd0"][i] = (p["cbd"] if p["cbd"] is not None else p["cj"] * inst["ad"]) * mult
-            cols["cbs0"][i] = (p["cbs"] if p["cbs"] is not None else p["cj"] * inst["as"]) * mult
-            cols["cbdsw"][i] = p["cjsw"] * inst["pd"] * mult
-            cols["cbssw"][i] = p["cjsw"] * inst["ps"] * mult
-            cols["pb"][i] = physics.scale_junction_potential(p["pb"], temp_c, tnom)
-            cols["mj"][i] = p["mj"]
-            cols["mjsw"][i] = p["mjsw"]
-            cols["fc"][i] = p["fc"]
-            cols["rd"][i] = (p["rd"] or p["rsh"] * inst["nrd"]) / mult
-            cols["rs"][i] = (p["rs"] or p["rsh"] * inst["nrs"]) / mult
-            cols["w"][i] = w
-            cols["leff"][i] = leff
-            cols["mult"][i] = mult
-            ext[i] = [net.node(x) for x in e.nodes]
-        self.p = cols
-        self.ext = ext
-        for i, e in enumerate(elements):
-            d, g, s, b = ext[i]
+            k = model_of.get(e.model)
+            if k is None:
+                k = model_of[e.model] = len(per_model)
+                per_model.append(_model_columns(circuit.models[e.model], e, temp_c, warnings))
+            which[i] = k
+        names = list(model_of)
+        self.models = [names[k] for k in which.tolist()]
+        m = {key: np.array([pm[key] for pm in per_model], dtype=float)[which] for key in per_model[0]}
+        inst = {key: np.fromiter((e.params.get(key, default) for e in elements), dtype=float, count=n)
+                for key, default in cards.MOS_INSTANCE.items()}
+        w, mult = inst["w"], inst["m"]
+        leff = inst["l"] - 2.0 * m["ld"]
+        for bad, message in ((leff <= 0, "effective channel length L - 2*LD = {:g} m is not positive"),
+                             ((w <= 0) | (mult <= 0), "W and M must be positive")):
+            if np.any(bad):
+                i = int(np.argmax(bad))
+                e = elements[i]
+                raise CircuitError(f"{e.name}: " + message.format(leff[i]), e.file, e.line)
+
+        def saturation(area: np.ndarray) -> np.ndarray:
+            given = (m["js"] > 0) & (area > 0)
+            return np.where(given, m["js"] * area, m["is"]) * mult * m["is_scale"]
+
+        self.p = {
+            "type": m["type"], "vto": m["vto"], "kp": m["kp"], "gamma": m["gamma"], "phi": m["phi"],
+            "lam": m["lambda"], "beta": m["kp"] * w / leff * mult, "cox": m["cox_area"] * w * leff * mult,
+            "cgso": m["cgso"] * w * mult, "cgdo": m["cgdo"] * w * mult, "cgbo": m["cgbo"] * leff * mult,
+            "isd": saturation(inst["ad"]), "iss": saturation(inst["as"]),
+            "cbd0": np.where(np.isnan(m["cbd"]), m["cj"] * inst["ad"], m["cbd"]) * mult,
+            "cbs0": np.where(np.isnan(m["cbs"]), m["cj"] * inst["as"], m["cbs"]) * mult,
+            "cbdsw": m["cjsw"] * inst["pd"] * mult, "cbssw": m["cjsw"] * inst["ps"] * mult,
+            "pb": m["pb"], "mj": m["mj"], "mjsw": m["mjsw"], "fc": m["fc"],
+            "rd": np.where(m["rd"] != 0, m["rd"], m["rsh"] * inst["nrd"]) / mult,
+            "rs": np.where(m["rs"] != 0, m["rs"], m["rsh"] * inst["nrs"]) / mult,
+            "w": w, "leff": leff, "mult": mult,
+        }
+        cols = self.p
+        index = net.index
+        self.ext = np.fromiter((index[x] for e in elements for x in e.nodes), dtype=np.int64, count=4 * n).reshape(n, 4)
+        self.nodes = self.ext.copy()
+        for i in np.flatnonzero((cols["rd"] > 0) | (cols["rs"] > 0)).tolist():
             if cols["rd"][i] > 0:
-                d = net.add_internal_node(e.name + "#d")
+                self.nodes[i, D] = net.add_internal_node(elements[i].name + "#d")
             if cols["rs"][i] > 0:
-                s = net.add_internal_node(e.name + "#s")
-            self.nodes[i] = [d, g, s, b]
+                self.nodes[i, S] = net.add_internal_node(elements[i].name + "#s")
         self.vcrit = physics.critical_voltage(np.maximum(np.minimum(cols["isd"], cols["iss"]), 1e-30), vt)
 
     # -- DC -------------------------------------------------------------------------

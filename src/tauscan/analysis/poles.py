@@ -472,6 +472,10 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
     sweep of small circuits."""
     guesses = [abs(p) / (2 * math.pi) for p in poles.values[:1]] + ([estimate_hz] if estimate_hz else [])
     f = min(guesses) / 8 if guesses else 1.0
+    # a frequency already solved a little lower (the probe choice's) serves as the start
+    below = [k for k in resp.known if f / 8 <= k <= f]
+    if below:
+        f = max(below)
     value = abs(resp(f))
     steps = 0
     while value < h0 / math.sqrt(2.0) and steps < 60:  # start below the crossing

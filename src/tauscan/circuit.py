@@ -6,7 +6,6 @@ All values are floats in SI units; names are lower case and hierarchical
 
 from __future__ import annotations
 
-from bisect import bisect_left
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from itertools import chain, repeat
@@ -81,8 +80,8 @@ class Element:
     source: SourceSpec | None = None
     control: tuple[str, ...] = ()
     comment: str = ""
-    #: position in the flat circuit (elements and table rows share one count)
-    seq: int = 0
+    #: how many rows of the circuit's table of plain passives come before it in the flat circuit
+    rows_before: int = 0
 
     def to_json(self) -> dict:
         out = {
@@ -125,7 +124,8 @@ class PassiveTable:
     A plain line (``Rname a b value`` or ``Cname a b value``, nothing else on it) is the
     bulk of an extracted netlist; keeping its fields in columns, with no object per
     element, is what makes a 10^6-line netlist quick to read and to stamp.  Rows are in
-    the order of the flat circuit (``seq``, shared with :attr:`Circuit.general`).
+    the order of the flat circuit; where the other elements stand between them is kept by
+    each element (:attr:`Element.rows_before`).
     """
 
     kinds: list[str] = field(default_factory=list)  # "r" or "c"
@@ -135,7 +135,6 @@ class PassiveTable:
     values: list[float] = field(default_factory=list)
     files: list[str] = field(default_factory=list)
     lines: list[int] = field(default_factory=list)
-    seq: list[int] = field(default_factory=list)
 
     def __len__(self) -> int:
         return len(self.names)
@@ -143,7 +142,7 @@ class PassiveTable:
     def element(self, k: int) -> Element:
         """Row ``k`` as an :class:`Element` (made on demand, for reports and look-ups)."""
         return Element(self.names[k], self.kinds[k], (self.a[k], self.b[k]), self.values[k], None, {},
-                       self.files[k], self.lines[k], seq=self.seq[k])
+                       self.files[k], self.lines[k], rows_before=k)
 
     def rows_of(self, kind: str) -> np.ndarray:
         """Indices of the rows of one kind (``"r"`` or ``"c"``)."""
@@ -170,10 +169,9 @@ class ElementView(Sequence):
             return
         row = 0
         for e in general:
-            end = bisect_left(table.seq, e.seq, row)
-            for k in range(row, end):
+            for k in range(row, e.rows_before):
                 yield table.element(k)
-            row = end
+            row = max(row, e.rows_before)
             yield e
         for k in range(row, len(table)):
             yield table.element(k)
@@ -217,11 +215,10 @@ class Circuit:
         table = self.passives
         row = 0
         for e in self.general:
-            if table.seq:
-                end = bisect_left(table.seq, e.seq, row)
-                if end > row:
-                    seen.update(zip(chain.from_iterable(zip(table.a[row:end], table.b[row:end])), repeat(None)))
-                    row = end
+            end = e.rows_before
+            if end > row:
+                seen.update(zip(chain.from_iterable(zip(table.a[row:end], table.b[row:end])), repeat(None)))
+                row = end
             if e.kind != "k":
                 seen.update(zip(e.nodes, repeat(None)))
         if row < len(table):

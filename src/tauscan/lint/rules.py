@@ -24,10 +24,11 @@ class Rule:
 def _first_line(circuit, node: str, default: str) -> tuple[str, int | None]:
     """(file, line) of the first element of the flat circuit that touches ``node``
     (``(default, None)`` when none does)."""
+    # positions in the flat circuit: 2 * (table rows before) + 1 for an element, 2 * row for a row
     best: tuple[int, str, int] | None = None
     for e in circuit.general:
         if node in e.nodes:
-            best = (e.seq, e.file, e.line)
+            best = (2 * e.rows_before + 1, e.file, e.line)
             break
     table = circuit.passives
     for column in (table.a, table.b):
@@ -35,8 +36,8 @@ def _first_line(circuit, node: str, default: str) -> tuple[str, int | None]:
             k = column.index(node)  # a scan in C; a finding or two per run
         except ValueError:
             continue
-        if best is None or table.seq[k] < best[0]:
-            best = (table.seq[k], table.files[k], table.lines[k])
+        if best is None or 2 * k < best[0]:
+            best = (2 * k, table.files[k], table.lines[k])
     return (best[1], best[2]) if best else (default, None)
 
 

@@ -95,9 +95,9 @@ class Flattener:
         self.circuit = Circuit(netlist.title, netlist.file)
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
-        #: element name -> its card, or its row in the table of plain passives
-        self.seen: dict[str, Card | int] = {}
-        self.seq = 0  # position of the next element in the flat circuit
+        #: element name -> its card (elements with an object); the table's names apart
+        self.seen: dict[str, Card] = {}
+        self.plain_names: set[str] = set()
 
     # -- models ----------------------------------------------------------------
     def model_for(self, frame: Frame, name: str) -> str | None:
@@ -194,14 +194,13 @@ class Flattener:
                     self.circuit.warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
                 elif (kind == "r" and value == 0.0) or (kind == "c" and value < 0.0):
                     card = run.card(k)
-                    check_passive_value(kind, value, card, card.text.rindex(words[k]))
+                    check_passive_value(kind, value, card, card.text.lower().rindex(words[k]))
         table = self.circuit.passives
-        first = len(table)
-        seen = self.seen
-        before = len(seen)
-        seen.update(zip(names, range(first, first + count)))
-        if len(seen) != before + count:
-            self._duplicate_in_run(run, names, first)
+        plain_names = self.plain_names
+        before = len(plain_names)
+        plain_names.update(names)
+        if len(plain_names) != before + count or not self.seen.keys().isdisjoint(names):
+            self._duplicate_in_run(run, names)
         table.kinds += kinds
         table.names += names
         table.a += frame.nodes(columns.a[lo:hi])
@@ -209,8 +208,6 @@ class Flattener:
         table.values += values
         table.files += repeat(run.file, count)
         table.lines += columns.lines[lo:hi]
-        table.seq += range(self.seq, self.seq + count)
-        self.seq += count
 
     @staticmethod
     def _plain_values(frame: Frame, run: PlainRun, words: list[str], values: list) -> None:
@@ -221,12 +218,12 @@ class Flattener:
             value = parse_number(word)
             if value is None or not math.isfinite(value):
                 card = run.card(k)
-                value = field_value(("w", word, card.text.rindex(word)), card, frame.scope)
+                value = field_value(("w", word, card.text.lower().rindex(word)), card, frame.scope)
             elif len(_PLAIN_VALUES) < _PLAIN_VALUES_MAX:
                 _PLAIN_VALUES[word] = value
             values[k] = value
 
-    def _duplicate_in_run(self, run: PlainRun, names: list[str], first: int) -> None:
+    def _duplicate_in_run(self, run: PlainRun, names: list[str]) -> None:
         """Raise for the first name of a run met before (in the run or earlier)."""
         table = self.circuit.passives
         before = set(table.names)
@@ -255,18 +252,18 @@ class Flattener:
 
     def _add(self, element: Element, card: Card) -> None:
         first = self.seen.get(element.name)
-        if first is not None:
-            if isinstance(first, int):
+        if first is not None or element.name in self.plain_names:
+            if first is None:
                 table = self.circuit.passives
-                where = f"{table.files[first]}:{table.lines[first]}"
+                row = table.names.index(element.name)
+                where = f"{table.files[row]}:{table.lines[row]}"
             else:
                 where = f"{first.file}:{first.line}"
             raise card.error(NetlistSyntaxError, f"element {element.name!r} is defined twice (first at {where})", 0)
         self.seen[element.name] = card
         if element.kind == "c" and element.value == 0:
             self.circuit.warnings.append(f"{card.file}:{card.line}: capacitor {element.name} has zero value")
-        element.seq = self.seq
-        self.seq += 1
+        element.rows_before = len(self.circuit.passives)
         self.circuit.general.append(element)
 
     def _instance(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Frame:

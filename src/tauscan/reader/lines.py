@@ -60,24 +60,25 @@ class Card:
 #: A word of a plain line: the grammar's WORD (grammar/netlist.lark) without ';' and '$'
 #: (which may start comments).  A test holds lines this matches to what the grammar reads.
 _PLAIN_WORD = r"""(?:[^\s=(){}'",.;$][^\s=(){}'",;$]*|\.[^\sA-Za-z_=(){}'",;$][^\s=(){}'",;$]*)"""
-#: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else.
+#: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else
+#: (matched on the line in lower case: every word of a plain line is case-insensitive).
 PLAIN_LINE = re.compile(
-    rf"""([RrCc][^\s=(){{}}'",;$]*)[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
+    rf"""([rc][^\s=(){{}}'",;$]*)[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
 _GROUPS = re.Match.groups
 
 
 class PlainColumns:
-    """The plain lines of one chunk in columns: names and nodes lower case, the value's text
-    as written, and the physical line numbers."""
+    """The plain lines of one chunk in columns, lower case (names, nodes, the value's text),
+    and their physical line numbers."""
 
     __slots__ = ("kinds", "names", "a", "b", "values", "lines")
 
     def __init__(self, matches: list, numbers: list[int]) -> None:
         groups = list(map(_GROUPS, matches))
-        self.names: list[str] = list(map(str.lower, map(itemgetter(0), groups)))
+        self.names: list[str] = list(map(itemgetter(0), groups))
         self.kinds: list[str] = list(map(itemgetter(0), self.names))
-        self.a: list[str] = list(map(str.lower, map(itemgetter(1), groups)))
-        self.b: list[str] = list(map(str.lower, map(itemgetter(2), groups)))
+        self.a: list[str] = list(map(itemgetter(1), groups))
+        self.b: list[str] = list(map(itemgetter(2), groups))
         self.values: list[str] = list(map(itemgetter(3), groups))
         self.lines: list[int] = numbers
 
@@ -276,13 +277,13 @@ class _PrePass:
         """Take one chunk of lines; False once ``.end`` is read."""
         first = self.number + 1
         self.number += len(lines)
-        matches = list(map(PLAIN_LINE.fullmatch, lines))
+        matches = list(map(PLAIN_LINE.fullmatch, map(str.lower, lines)))
         if first == 1 and self.has_title and matches:
             matches[0] = None  # the title is never a card
         if max(map(len, lines), default=0) > MAX_LINE_CHARS:  # the line-by-line path says which
             matches = [None] * len(lines)
         at = list(compress(range(len(lines)), matches))
-        columns = PlainColumns(list(compress(matches, matches)), [first + i for i in at]) if at else None
+        columns = PlainColumns(list(compress(matches, matches)), list(map(first.__add__, at))) if at else None
         start = 0  # the first line of the chunk not yet taken into a run or a card
         lo = 0  # the first plain row from there
         for i in compress(range(len(lines)), map(not_, matches)):

@@ -54,7 +54,7 @@ def main() -> None:
         t5 = time.perf_counter()
     finally:
         os.unlink(path)
-    n_mos = sum(1 for e in circuit.elements if e.kind == "m")
+    n_mos = sum(1 for e in circuit.general if e.kind == "m")
     per_iter = t_newton / max(newton_iterations, 1)
     print(f"transistors {n_mos}, unknowns {solver.size - 1}")
     print(f"read {t1 - t0:.2f} s, whole operating point {t3 - t2:.2f} s ({op.strategy}, {op.iterations} iterations, "

@@ -18,10 +18,8 @@ _NUMBER = re.compile(r"([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)([A-Za-z]*)\Z"
 #: decimal exponent of each one-letter scale suffix
 _SCALE = {"t": 12, "g": 9, "k": 3, "m": -3, "u": -6, "n": -9, "p": -12, "f": -15, "a": -18}
 
+#: parse_number's memo (text -> value, or None for text that is not a number)
 _cache: dict[str, float | None] = {}
-#: parse_number's memo (text -> value, or None for text that is not a number); the reader
-#: looks plain values up here directly in its bulk path.
-number_cache = _cache
 
 
 def parse_number(text: str) -> float | None:

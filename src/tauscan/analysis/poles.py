@@ -425,20 +425,19 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
 
 def _refine(resp: Response, target: float, fa: float, fb: float,
             va: float | None = None, vb: float | None = None) -> float | None:
-    """The crossing of |H| = target between a bracket ``fa < fb`` where |H| falls through it
-    (``va``, ``vb``: |H| there, when known).  Each new point is where a one-pole roll-off
-    through the bracket's two ends crosses (:func:`_one_pole_guess`), else the straight line
-    in log|H| against log f; after two points on the same side, the middle of the bracket in
-    log f, so the bracket always shrinks.  Stops when the frequency is known to 1e-9 (cheap
-    dense points) or 1e-4 (each point a sparse factorization; below the four digits reported)."""
+    """The crossing of |H| = target between a bracket (``va``, ``vb``: |H| there, when
+    known), by the Illinois variant of regula falsi on log|H| against log f: nearly straight
+    on a roll-off, so it takes a few evaluations, and the bracket is kept throughout.
+    Stops when the frequency is known to 1e-9 (cheap dense points) or 1e-4 (each point a
+    sparse factorization; below the four digits reported)."""
     log_target = math.log(target)
 
     def gap_of(v: float) -> float:
         return math.log(v) - log_target if v > 0 else -1e300
 
-    va = abs(resp(fa)) if va is None else va
-    vb = abs(resp(fb)) if vb is None else vb
-    ga, gb = gap_of(va), gap_of(vb)
+    a, b = math.log(fa), math.log(fb)
+    ga = gap_of(abs(resp(fa)) if va is None else va)
+    gb = gap_of(abs(resp(fb)) if vb is None else vb)
     if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
         return None
     if ga == 0:
@@ -447,51 +446,24 @@ def _refine(resp: Response, target: float, fa: float, fb: float,
         return fb
     # log|H| falls about as fast as log f near the crossing: the same tolerance serves both
     tol = 1e-9 if resp.dense else 1e-4
-    x = math.log(fb)
-    side, repeats = 0, 0
+    x = b
     for _ in range(100):
-        a, b = math.log(fa), math.log(fb)
-        guess = _one_pole_guess(target, fa, fb, va, vb) if ga > 0 > gb else None
-        if repeats >= 2:
-            x = 0.5 * (a + b)
-        elif guess is not None:
-            x = guess
-        else:
-            x = (a * gb - b * ga) / (gb - ga)
+        x = (a * gb - b * ga) / (gb - ga)
         if not (min(a, b) < x < max(a, b)):
             x = 0.5 * (a + b)
-        vx = abs(resp(math.exp(x)))
-        gx = gap_of(vx)
+        gx = gap_of(abs(resp(math.exp(x))))
         if not math.isfinite(gx):
             return None
         if abs(gx) < tol:
             break
-        now = 1 if (gx > 0) == (ga > 0) else -1  # which end the new point replaces
-        repeats = repeats + 1 if now == side else 1
-        side = now
-        if now > 0:
-            fa, va, ga = math.exp(x), vx, gx
-        else:
-            fb, vb, gb = math.exp(x), vx, gx
-        if abs(math.log(fb) - math.log(fa)) < tol:
+        if gx * gb < 0:  # the root lies between x and the old b
+            a, ga = b, gb
+        else:  # the old a stays a second time: halve its weight (Illinois)
+            ga *= 0.5
+        b, gb = x, gx
+        if abs(b - a) < tol:
             break
     return math.exp(x)
-
-
-def _one_pole_guess(target: float, fa: float, fb: float, va: float | None, vb: float | None) -> float | None:
-    """log f where a one-pole roll-off through the bracket's two points crosses ``target``
-    (1/|H|^2 is linear in f^2 for |H| = A / sqrt(1 + (f/fp)^2)); None when the points do not
-    fit one (a rising response, or a crossing outside the bracket).  Near a -3 dB point set
-    by one pole or a few this lands far closer than a straight line in log-log does, which
-    saves an evaluation or two of the refinement (each a sparse factorization)."""
-    if not (va and vb and va > target > vb > 0 and 0 < fa < fb):
-        return None
-    ya, yb = 1.0 / (va * va), 1.0 / (vb * vb)
-    slope = (yb - ya) / (fb * fb - fa * fa)
-    f2 = fa * fa + (1.0 / (target * target) - ya) / slope if slope > 0 else 0.0
-    if not fa * fa < f2 < fb * fb:
-        return None
-    return 0.5 * math.log(f2)
 
 
 def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float | None) -> tuple[float | None, str]:

@@ -15,7 +15,7 @@ from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
 from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field
-from tauscan.reader.lines import Card, PlainRun
+from tauscan.reader.lines import Card, PlainRun, PlainValueCard
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
 from tauscan.units import parse_number
@@ -216,9 +216,8 @@ class Flattener:
             if values[k] is not None:
                 continue
             value = parse_number(word)
-            if value is None or not math.isfinite(value):
-                card = run.card(k)
-                value = field_value(("w", word, card.text.lower().rindex(word)), card, frame.scope)
+            if value is None or not math.isfinite(value):  # a parameter's name, or out of range
+                value = field_value(("w", word, 0), PlainValueCard(run, k, word), frame.scope)
             elif len(_PLAIN_VALUES) < _PLAIN_VALUES_MAX:
                 _PLAIN_VALUES[word] = value
             values[k] = value

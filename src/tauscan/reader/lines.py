@@ -107,6 +107,21 @@ class PlainRun:
         return Card(raw, self.file, number, "", raw)
 
 
+class PlainValueCard:
+    """Stands for the card of a plain line's value while it is evaluated: the line is read
+    again only when an error must show it (a netlist may hold thousands of plain lines whose
+    values name parameters).  Offsets given to :meth:`error` count from the value's start."""
+
+    __slots__ = ("run", "k", "word")
+
+    def __init__(self, run: PlainRun, k: int, word: str) -> None:
+        self.run, self.k, self.word = run, k, word
+
+    def error(self, cls: type, message: str, offset: int = 0):
+        card = self.run.card(self.k)
+        return card.error(cls, message, card.text.lower().rindex(self.word) + offset)
+
+
 def _physical_line(path: str, number: int) -> str | None:
     try:
         for k, raw in enumerate(read_lines(path), 1):

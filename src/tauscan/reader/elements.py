@@ -13,7 +13,7 @@ from typing import Protocol
 from tauscan.circuit import Element, SourceSpec, Waveform
 from tauscan.errors import NetlistSyntaxError
 from tauscan.reader.fields import Field
-from tauscan.reader.lines import Card
+from tauscan.reader.lines import Card, PlainValueCard
 
 WAVEFORMS = frozenset(["pulse", "sin", "pwl", "exp", "sffm", "am"])
 _SOURCE_WORDS = WAVEFORMS | {"dc", "ac"}
@@ -72,7 +72,7 @@ _PASSIVE_UNIT = {"r": "resistance", "c": "capacitance", "l": "inductance"}
 _PASSIVE_KEYS = {"r": ("r", "value", "res"), "c": ("c", "value", "cap"), "l": ("l", "value", "ind")}
 
 
-def check_passive_value(letter: str, value: float, card: Card, offset: int) -> None:
+def check_passive_value(letter: str, value: float, card: Card | PlainValueCard, offset: int) -> None:
     """A resistance of zero and a negative capacitance are errors (at ``offset`` in the card)."""
     if letter == "r" and value == 0:
         raise card.error(NetlistSyntaxError, "zero resistance; use a small value or join the nodes", offset)

@@ -192,9 +192,8 @@ class Flattener:
             for k, (kind, value) in enumerate(zip(kinds, values)):
                 if kind == "c" and value == 0.0:
                     self.circuit.warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
-                elif (kind == "r" and value == 0.0) or (kind == "c" and value < 0.0):
-                    card = run.card(k)
-                    check_passive_value(kind, value, card, card.text.lower().rindex(words[k]))
+                else:
+                    check_passive_value(kind, value, PlainValueCard(run, k, words[k]), 0)
         table = self.circuit.passives
         plain_names = self.plain_names
         before = len(plain_names)

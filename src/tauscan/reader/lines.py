@@ -92,9 +92,6 @@ class PlainRun:
     hi: int
     file: str
 
-    def __len__(self) -> int:
-        return self.hi - self.lo
-
     def card(self, k: int) -> Card:
         """Row ``k`` of the run as a card, for an error or a warning about it: the line is read
         again from the file (plain lines keep only their words)."""
@@ -108,9 +105,9 @@ class PlainRun:
 
 
 class PlainValueCard:
-    """Stands for the card of a plain line's value while it is evaluated: the line is read
-    again only when an error must show it (a netlist may hold thousands of plain lines whose
-    values name parameters).  Offsets given to :meth:`error` count from the value's start."""
+    """Stands for the card of a plain line's value while it is evaluated or checked: the line
+    is read again only when an error must show it (a netlist may hold thousands of plain lines
+    whose values name parameters).  Offsets given to :meth:`error` count from the value's start."""
 
     __slots__ = ("run", "k", "word")
 
@@ -299,14 +296,12 @@ class _PrePass:
             matches = [None] * len(lines)
         at = list(compress(range(len(lines)), matches))
         columns = PlainColumns(list(compress(matches, matches)), list(map(first.__add__, at))) if at else None
-        start = 0  # the first line of the chunk not yet taken into a run or a card
-        lo = 0  # the first plain row from there
+        lo = 0  # the first plain row not yet taken into a run or a card
         for i in compress(range(len(lines)), map(not_, matches)):
             raw = lines[i]
             number = first + i
             if number == 1 and self.has_title:
                 self.title = raw.strip()
-                start = i + 1
                 continue
             if len(raw) > MAX_LINE_CHARS:
                 raise NetlistSyntaxError(
@@ -319,8 +314,7 @@ class _PrePass:
             if self.in_control:
                 if head.startswith(".endc"):
                     self.in_control = False
-                    start = i + 1
-                    lo = bisect.bisect_left(at, start, lo)
+                    lo = bisect.bisect_left(at, i, lo)  # the plain lines inside are dropped
                 continue
             # the plain lines before this one form a run (the last of them is a card of its own
             # when this line continues it)
@@ -331,7 +325,6 @@ class _PrePass:
             else:
                 self._run(columns, lo, hi)
             lo = hi
-            start = i + 1
             if head.startswith(".contr"):
                 self.in_control = True
                 continue

@@ -67,17 +67,23 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     warnings = list(op.warnings)
     lu = factor(ss.g)
     # -- capacitors ---------------------------------------------------------------
-    records = [r for r in ss.capacitors]
-    ground = ss.ac_ground
-    keep, excluded = [], []
-    for r in records:
-        if r.farads == 0 or (r.a in ground and r.b in ground) or r.a == r.b:
-            excluded.append(r.name)
-        else:
-            keep.append(r)
-    a_rows = np.array([-1 if r.a in ground else ss.row(r.a) for r in keep], dtype=np.int64)
-    b_rows = np.array([-1 if r.b in ground else ss.row(r.b) for r in keep], dtype=np.int64)
-    farads = np.array([r.farads for r in keep], dtype=float)
+    records = ss.capacitors
+    count = len(records)
+    index = net.index
+    # node indices of both ends, and whether each is an AC ground (rows: index - 1, -1 for a ground)
+    ia = np.fromiter(map(index.__getitem__, (r.a for r in records)), dtype=np.int64, count=count)
+    ib = np.fromiter(map(index.__getitem__, (r.b for r in records)), dtype=np.int64, count=count)
+    is_ground = np.zeros(net.n_nodes, dtype=bool)
+    is_ground[[index[name] for name in ss.ac_ground if name in index]] = True
+    ground_a, ground_b = is_ground[ia], is_ground[ib]
+    all_farads = np.fromiter((r.farads for r in records), dtype=float, count=count)
+    out = (all_farads == 0) | (ground_a & ground_b) | (ia == ib)
+    kept = np.flatnonzero(~out)
+    keep = [records[k] for k in kept.tolist()]
+    excluded = [records[k].name for k in np.flatnonzero(out).tolist()]
+    a_rows = np.where(ground_a, -1, ia - 1)[kept]
+    b_rows = np.where(ground_b, -1, ib - 1)[kept]
+    farads = all_farads[kept]
     rows = np.concatenate([a_rows, b_rows, a_rows, b_rows])
     cols = np.concatenate([a_rows, b_rows, b_rows, a_rows])
     z, z_method = z_entries(ss, rows, cols, settings.z_method) if len(keep) else (np.zeros(0), "none")

@@ -20,9 +20,9 @@ from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
 from tauscan.units import parse_number
 
-#: Values of plain lines already met (text -> a finite float); bounded like parse_number's memo.
-_PLAIN_VALUES: dict[str, float] = {}
-_PLAIN_VALUES_MAX = 200_000
+#: Numbers already met as plain words (text -> a finite float); bounded like parse_number's memo.
+_NUMBERS: dict[str, float] = {}
+_NUMBERS_MAX = 200_000
 
 #: Deepest chain of nested subcircuit instances.
 MAX_DEPTH = 1000
@@ -77,6 +77,15 @@ class Frame:
         return self.prefix + name
 
     def value(self, f: Field, card: Card) -> float:
+        if f[0] == "w":  # most values are plain numbers, and few distinct ones
+            known = _NUMBERS.get(f[1])
+            if known is not None:
+                return known
+            number = parse_number(f[1])
+            if number is not None and math.isfinite(number):
+                if len(_NUMBERS) < _NUMBERS_MAX:
+                    _NUMBERS[f[1]] = number
+                return number
         return field_value(f, card, self.scope)
 
     def model(self, raw: str) -> str | None:
@@ -184,7 +193,7 @@ class Flattener:
         if frame.prefix:
             names = list(map(frame.prefix.__add__, names))
         words = columns.values[lo:hi]
-        values = list(map(_PLAIN_VALUES.get, words))
+        values = list(map(_NUMBERS.get, words))
         if None in values:
             self._plain_values(frame, run, words, values)
         kinds = columns.kinds[lo:hi]
@@ -217,8 +226,8 @@ class Flattener:
             value = parse_number(word)
             if value is None or not math.isfinite(value):  # a parameter's name, or out of range
                 value = field_value(("w", word, 0), PlainValueCard(run, k, word), frame.scope)
-            elif len(_PLAIN_VALUES) < _PLAIN_VALUES_MAX:
-                _PLAIN_VALUES[word] = value
+            elif len(_NUMBERS) < _NUMBERS_MAX:
+                _NUMBERS[word] = value
             values[k] = value
 
     def _duplicate_in_run(self, run: PlainRun, names: list[str]) -> None:

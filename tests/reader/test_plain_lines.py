@@ -54,15 +54,22 @@ def test_plain_and_not_plain():
 
 
 NETLIST = """mixed plain and card lines
-.param rval=2k
+.param rval=2k wpar=3u
+.model nch nmos (vto=0.4 kp=100u)
 .global vdd
 .subckt cell in out
 Rin in mid 1k
 Cm mid out 0.5p
+Mx out mid 0 gnd NCH W=2U L=0.5u AD=1p
 R2 mid vdd {rval}
 Cg mid gnd 2f
 .ends
 V1 vdd 0 1.8
+M1 n2 n1 0 0 nch w=1u l=0.2u
+M2 n3 n2 0 0 nch w=wpar l=1u
+M3 n4 n3 0 0 nch w=1u
+* a comment between continuation lines
++ l=0.3u
 Ra vdd n1 rval
 Ca n1 0 1p
 X1 n1 n2 cell
@@ -83,7 +90,7 @@ Rafter a b 1
 
 
 def _all(circuit):
-    return [(e.name, e.kind, e.nodes, e.value, e.params, e.line) for e in circuit.elements]
+    return [(e.name, e.kind, e.nodes, e.value, e.model, e.params, e.line) for e in circuit.elements]
 
 
 @pytest.mark.parametrize("chunk", [7, 40, 1 << 20])
@@ -93,7 +100,7 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
     plain.write_text(NETLIST)
     # the same netlist with every line made not plain (an inline comment on each element line)
     carded = tmp_path / "carded.sp"
-    carded.write_text("".join(line + (" ; card\n" if line[:1] in "RC" else "\n") for line in NETLIST.splitlines()))
+    carded.write_text("".join(line + (" ; card\n" if line[:1] in "RCM" else "\n") for line in NETLIST.splitlines()))
     a = read_netlist(str(plain))
     b = read_netlist(str(carded))
     assert len(a.passives) > 0 and len(b.passives) == 0
@@ -102,8 +109,8 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
     assert [w.replace("plain.sp", "x") for w in a.warnings] == [w.replace("carded.sp", "x") for w in b.warnings]
     names = [e.name for e in a.elements]
     # hand-derived: subcircuit rows take the instance path, nodes the pins, globals and ground
-    assert names == ["v1", "ra", "ca", "x1.rin", "x1.cm", "x1.r2", "x1.cg", "x2.rin", "x2.cm", "x2.r2", "x2.cg",
-                     "rb", "cb", "rc", "cz", "rd"]
+    assert names == ["v1", "m1", "m2", "m3", "ra", "ca", "x1.rin", "x1.cm", "x1.mx", "x1.r2", "x1.cg", "x2.rin",
+                     "x2.cm", "x2.mx", "x2.r2", "x2.cg", "rb", "cb", "rc", "cz", "rd"]
     by_name = {e.name: e for e in a.elements}
     assert by_name["x2.cm"].nodes == ("x2.mid", "n3")
     assert by_name["x1.cg"].nodes == ("x1.mid", "0")
@@ -111,6 +118,10 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
     assert by_name["ra"].value == 2000.0
     assert by_name["rc"].params == {"m": 2.0}  # continued: a card, not a plain row
     assert by_name["rd"].value == 1e6
+    assert by_name["x2.mx"].nodes == ("n3", "x2.mid", "0", "0") and by_name["x2.mx"].model == "nch"
+    assert by_name["x2.mx"].params == {"w": 2e-6, "l": 0.5e-6, "ad": 1e-12}
+    assert by_name["m2"].params == {"w": 3e-6, "l": 1e-6}  # a parameter's name, through the card path
+    assert by_name["m3"].params == {"w": 1e-6, "l": 0.3e-6}  # continued
     assert any("capacitor cz has zero value" in w for w in a.warnings)
 
 
@@ -124,6 +135,8 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
     ("t\nR1 a b 1\nR2 b c\tnowhere\n", 3, 8, ExpressionError, "undefined parameter 'nowhere'"),
     ("t\nR1 a b 1\nR2 B C 0K\n", 3, 8, NetlistSyntaxError, "zero resistance"),
     ("t\nC1 a b 1e999\n", 2, 8, NetlistSyntaxError, "out of range"),
+    ("t\nR1 a b 1\nM1 d g s b nope w=1u\n", 3, 12, NetlistSyntaxError, "model 'nope' is not defined"),
+    ("t\n.model n nmos\nM1 d g s b n\nR2 a b 1\nM1 d g s b n w=1u\n", 5, 1, NetlistSyntaxError, "first at {}:3"),
 ])
 def test_errors_in_plain_lines_are_located(write, text, line, col, error, message):
     path = write(text)

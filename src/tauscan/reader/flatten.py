@@ -14,8 +14,8 @@ from itertools import repeat
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
 from tauscan.reader.elements import RULES, check_passive_value
-from tauscan.reader.fields import Field
-from tauscan.reader.lines import Card, PlainRun, PlainValueCard
+from tauscan.reader.fields import Field, card_fields
+from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
 from tauscan.units import parse_number
@@ -105,7 +105,7 @@ class Flattener:
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
         #: element name -> its card (elements with an object); the table's names apart
-        self.seen: dict[str, Card] = {}
+        self.seen: dict[str, Card | DeviceLine] = {}
         self.plain_names: set[str] = set()
 
     # -- models ----------------------------------------------------------------
@@ -159,6 +159,9 @@ class Flattener:
                 index += 1
                 if type(item) is PlainRun:
                     self._plain_run(frame, item)
+                    continue
+                if type(item) is DeviceLine:
+                    self._device_line(frame, item)
                     continue
                 name, fields, card = item
                 if name[0] == "x":
@@ -217,6 +220,34 @@ class Flattener:
         table.files += repeat(run.file, count)
         table.lines += columns.lines[lo:hi]
 
+    def _device_line(self, frame: Frame, item: DeviceLine) -> None:
+        """A plain MOSFET line: what :func:`~tauscan.reader.elements.mosfet` makes of it, split
+        here directly; anything unusual (an unknown model, a parameter that is not a number)
+        goes through the card path, which says what is wrong or evaluates it."""
+        words = item.raw.lower().split()
+        model = frame.model(words[5])
+        params: dict[str, float] | None = {} if model is not None else None
+        if params is not None:
+            for word in words[6:]:
+                key, _, text = word.partition("=")
+                value = _NUMBERS.get(text)
+                if value is None:
+                    value = parse_number(text)
+                    if value is None or not math.isfinite(value):
+                        params = None
+                        break
+                    if len(_NUMBERS) < _NUMBERS_MAX:
+                        _NUMBERS[text] = value
+                params[key] = value
+        if params is None:
+            card = item.card()
+            fields = card_fields(card)[1]
+            self._add(self._element(frame, fields[0][1].lower(), fields, card), card)
+            return
+        node = frame.node
+        nodes = (node(words[1]), node(words[2]), node(words[3]), node(words[4]))
+        self._add(Element(frame.prefix + words[0], "m", nodes, None, model, params, item.file, item.line), item)
+
     @staticmethod
     def _plain_values(frame: Frame, run: PlainRun, words: list[str], values: list) -> None:
         """Fill in the values not met before: new numbers, and names of parameters."""
@@ -257,7 +288,7 @@ class Flattener:
             (params if f[0] == "p" else pos).append(f)
         return RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
 
-    def _add(self, element: Element, card: Card) -> None:
+    def _add(self, element: Element, card: Card | DeviceLine) -> None:
         first = self.seen.get(element.name)
         if first is not None or element.name in self.plain_names:
             if first is None:
@@ -312,7 +343,7 @@ def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
     """The definitions that ``definition``'s instance lines place (unknown names skipped)."""
     out = []
     for item in definition.elements:
-        if type(item) is PlainRun or item[0][0] != "x":
+        if type(item) is not tuple or item[0][0] != "x":
             continue
         name, fields, card = item
         pos = [f for f in fields[1:] if f[0] not in ("p",)]

@@ -65,6 +65,26 @@ _PLAIN_WORD = r"""(?:[^\s=(){}'",.;$][^\s=(){}'",;$]*|\.[^\sA-Za-z_=(){}'",;$][^
 PLAIN_LINE = re.compile(
     rf"""([rc][^\s=(){{}}'",;$]*)[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
 _GROUPS = re.Match.groups
+#: A plain MOSFET line (in lower case): a name, four nodes, a model, then only ``key=value``
+#: pairs of plain words.  Such a line is handed on as a :class:`DeviceLine`, not a card.
+PLAIN_DEVICE = re.compile(
+    rf"""m[^\s=(){{}}'",;$]*(?:[ \t]+{_PLAIN_WORD}){{5}}(?:[ \t]+{_PLAIN_WORD}={_PLAIN_WORD})*[ \t]*""")
+
+
+@dataclass(slots=True)
+class DeviceLine:
+    """A plain MOSFET line (:data:`PLAIN_DEVICE`), kept as written: the flattener splits it
+    itself, and makes it a card (:meth:`card`) only for an error or anything unusual."""
+
+    raw: str
+    file: str
+    line: int
+
+    def card(self) -> Card:
+        return Card(self.raw, self.file, self.line, "", self.raw)
+
+    def error(self, cls: type, message: str, offset: int = 0):
+        return self.card().error(cls, message, offset)
 
 
 class PlainColumns:
@@ -280,8 +300,8 @@ class _PrePass:
         self.file = file
         self.has_title = has_title
         self.title = ""
-        self.items: list[Card | PlainRun] = []
-        self.current: Card | None = None
+        self.items: list[Card | PlainRun | DeviceLine] = []
+        self.current: Card | DeviceLine | None = None
         self.in_control = False
         self.number = 0  # physical lines before the chunk at hand
 
@@ -356,6 +376,11 @@ class _PrePass:
             current = self.current
             if current is None:
                 raise NetlistSyntaxError("continuation line '+' with no card before it", file, number, plus + 1, raw)
+            if type(current) is DeviceLine:  # continued: a card after all, in its place
+                at = len(self.items) - 1
+                while self.items[at] is not current:  # it is among the last few items
+                    at -= 1
+                current = self.current = self.items[at] = current.card()
             piece = body[plus + 1 :]
             if current.segments is None or current.physical is None:
                 current.segments = [(0, current.line, 0)]
@@ -371,6 +396,9 @@ class _PrePass:
         if head.startswith(".end") and (len(head) == 4 or not head[4].isalnum()):
             self.current = None
             return False
-        self.current = Card(body, file, number, comment, raw)
+        if raw[0] in "mM" and not comment and PLAIN_DEVICE.fullmatch(raw.lower()):
+            self.current = DeviceLine(raw, file, number)
+        else:
+            self.current = Card(body, file, number, comment, raw)
         self.items.append(self.current)
         return True

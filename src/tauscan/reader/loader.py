@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
 from tauscan.reader.fields import Field, card_fields
-from tauscan.reader.lines import Card, PlainRun, logical_items, read_chunks
+from tauscan.reader.lines import Card, DeviceLine, PlainRun, logical_items, read_chunks
 
 #: Deepest chain of nested ``.include`` files.
 MAX_INCLUDE_DEPTH = 64
@@ -38,8 +38,9 @@ class Definition:
     params: dict[str, tuple[Field, Card]] = field(default_factory=dict)
     models: dict[str, tuple[list[Field], Card]] = field(default_factory=dict)
     subckts: dict[str, "Definition"] = field(default_factory=dict)
-    #: element cards as ``(name, fields, card)``, and runs of plain lines, in file order
-    elements: list[tuple[str, list[Field], Card] | PlainRun] = field(default_factory=list)
+    #: element cards as ``(name, fields, card)``, runs of plain lines and plain MOSFET lines,
+    #: in file order
+    elements: list[tuple[str, list[Field], Card] | PlainRun | DeviceLine] = field(default_factory=list)
 
     def find_subckt(self, name: str) -> "Definition | None":
         scope: Definition | None = self
@@ -114,10 +115,10 @@ class Loader:
         return self.netlist
 
     # -- card dispatch ---------------------------------------------------------
-    def _cards(self, cards: list[Card | PlainRun]) -> None:
+    def _cards(self, cards: list[Card | PlainRun | DeviceLine]) -> None:
         skip_section: Card | None = None
         for card in cards:
-            if type(card) is PlainRun:
+            if type(card) is not Card:  # a run of plain lines, or a plain MOSFET line
                 if skip_section is None:
                     self.stack[-1].elements.append(card)
                 continue
@@ -268,13 +269,13 @@ class Loader:
             self.lib_depth -= section is not None
 
     @staticmethod
-    def _section(cards: list[Card | PlainRun], section: str, card: Card, name_field: Field, path: str) -> list[Card | PlainRun]:
-        chosen: list[Card | PlainRun] = []
+    def _section(cards: list, section: str, card: Card, name_field: Field, path: str) -> list:
+        chosen: list = []
         inside = False
         found = False
         sections: list[str] = []
         for c in cards:
-            if type(c) is PlainRun:
+            if type(c) is not Card:
                 if inside:
                     chosen.append(c)
                 continue
@@ -298,10 +299,10 @@ class Loader:
         return chosen
 
 
-def _section_names(cards: list[Card | PlainRun]) -> set[str]:
+def _section_names(cards: list) -> set[str]:
     names = set()
     for c in cards:
-        if type(c) is PlainRun:
+        if type(c) is not Card:
             continue
         words = c.text.split()
         if len(words) == 2 and words[0].lower() == ".lib":

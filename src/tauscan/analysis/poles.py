@@ -23,6 +23,8 @@ import scipy.linalg as la
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from tauscan.ordering import fill_reducing_order
+
 #: Up to this many unknowns all poles are found with a dense eigen-solver.
 DENSE_LIMIT = 800
 #: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
@@ -281,15 +283,8 @@ class ComplexSolver:
         self._c_fix = c_rows[:, self.fixed_rows].tocsc()
         gk = g_rows[:, keep].tocsc()
         ck = c_rows[:, keep].tocsc()
-        # the ordering depends on the pattern only: factor a diagonally dominant matrix with
-        # the pattern of |G| + |C| (never singular, whatever the circuit's values)
-        pattern = (abs(gk) + abs(ck)).tocsc()
-        pattern.data[:] = 1.0
-        degree = np.asarray(pattern.sum(axis=1)).ravel() + 1.0
-        probe = (pattern + sp.diags(degree)).tocsc()
-        lu = spla.splu(probe, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
-        # Pr A Pc = L U puts column i at position perm_c[i]: reorder by q = argsort(perm_c)
-        self.perm = np.argsort(lu.perm_c)
+        # the ordering depends on the pattern of |G| + |C| only
+        self.perm = fill_reducing_order(abs(gk) + abs(ck))
         self.inverse = np.argsort(self.perm)
         self._g = gk[self.perm][:, self.perm].tocsc()
         self._c = ck[self.perm][:, self.perm].tocsc()

@@ -26,6 +26,7 @@ from tauscan.errors import CircuitError, ConvergenceError
 from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
 from tauscan.op.result import OperatingPoint
+from tauscan.ordering import fill_reducing_order
 
 #: Newton steps taken after convergence to polish the solution (see DCSolver._polish).
 POLISH_STEPS = 2
@@ -61,10 +62,11 @@ class SolverSettings:
 class _OrderedLU:
     """Sparse LU for a sequence of matrices with one pattern (the Newton Jacobians).
 
-    The first factorization picks a minimum-degree ordering of A + A^T with diagonal pivots
-    preferred (circuit matrices are nearly symmetric in structure; SuperLU's default
-    column ordering filled badly on large chains: 22 s against 5 s for the operating point
-    at 2e5 lines); later ones reuse that ordering, so the ordering is computed once.
+    The first factorization picks a minimum-degree ordering of A + A^T, dense rows last
+    (:func:`tauscan.ordering.fill_reducing_order`), with diagonal pivots preferred (circuit
+    matrices are nearly symmetric in structure; SuperLU's default column ordering filled badly
+    on large chains: 22 s against 5 s for the operating point at 2e5 lines); later ones reuse
+    that ordering, so the ordering is computed once.
     """
 
     def __init__(self) -> None:
@@ -75,13 +77,8 @@ class _OrderedLU:
     def factor(self, matrix):
         matrix = matrix.tocsc()
         if self.perm is None or len(self.perm) != matrix.shape[0]:
-            lu = spla.splu(matrix, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
-            # Pr A Pc = L U puts column i of A at position perm_c[i]: the matrix reordered
-            # by that ordering is A[q][:, q] with q = argsort(perm_c)
-            self.perm = np.argsort(lu.perm_c)
+            self.perm = fill_reducing_order(matrix)
             self.inverse = np.argsort(self.perm)
-            self.last = lu
-            return lu.solve
         permuted = matrix[self.perm][:, self.perm].tocsc()
         lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
         self.last = lu

@@ -81,3 +81,29 @@ def test_ac_grounds_taken_out_give_the_full_systems_node_voltages(write):
         x = solver.solve(solver.factor(s), b)
         full = np.linalg.solve((ss.g + s * ss.c).toarray(), b)
         assert_allclose(x[:n], full[:n], rtol=1e-10, atol=1e-14)
+
+
+def test_dense_rows_go_last_and_solves_stay_exact():
+    """A grid with a 'supply' node joined to every node: the ordering must be a permutation
+    with that node last, keep the fill of minimum degree on the grid alone, and solve
+    exactly (numpy.linalg.solve on the dense matrix, both the matrix and its transpose)."""
+    from tauscan.ordering import PermutedLU, fill_reducing_order
+
+    g, _ = _grid(30)
+    n = g.shape[0]
+    hub = 17
+    y = 1e-5
+    others = np.array([k for k in range(n) if k != hub])
+    star = sp.csc_matrix((np.concatenate([np.full(n - 1, -y), np.full(n - 1, -y), [y * (n - 1)]]),
+                          (np.concatenate([others, np.full(n - 1, hub), [hub]]),
+                           np.concatenate([np.full(n - 1, hub), others, [hub]]))), shape=(n, n))
+    a = (g + star + sp.diags(np.full(n, y))).tocsc()
+    q = fill_reducing_order(a)
+    assert sorted(q.tolist()) == list(range(n)) and q[-1] == hub
+    lu = spla.splu(a[q][:, q].tocsc(), permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+    # the hub adds one dense row and column to the factors, and no more
+    assert lu.L.nnz + lu.U.nnz <= 1.3 * _fresh_fill(g) + 2 * n
+    b = np.linspace(-1.0, 2.0, n)
+    solver = PermutedLU(lu, q)
+    assert_allclose(solver.solve(b), np.linalg.solve(a.toarray(), b), rtol=1e-9)
+    assert_allclose(solver.solve(b, trans="T"), np.linalg.solve(a.toarray().T, b), rtol=1e-9)

@@ -32,6 +32,7 @@ def _peak_mb() -> float:
 
 def _child_scan(path: str) -> dict:
     start = time.perf_counter()
+    from tauscan.gcpause import paused_gc
     from tauscan.pipeline import ScanRequest, scan
     from tauscan.report import scan_json, scan_table
 
@@ -39,12 +40,14 @@ def _child_scan(path: str) -> dict:
     run = scan(ScanRequest(path))
     times = dict(run.timings)
     t = time.perf_counter()
-    table = scan_table.render([run], 20)
+    with paused_gc():  # as the command line renders its reports
+        table = scan_table.render([run], 20)
     times["table"] = time.perf_counter() - t
     total = time.perf_counter() - start
     peak = _peak_mb()
     t = time.perf_counter()
-    text = scan_json.render([run])
+    with paused_gc():
+        text = scan_json.render([run])
     json_s = time.perf_counter() - t
     return {"times": times, "import": imported, "total": total, "peak_mb": peak, "json_s": json_s,
             "json_mb": len(text) / 1e6, "table_chars": len(table), "elements": len(run.circuit.elements),

@@ -29,7 +29,7 @@ def fill_reducing_order(matrix: sp.spmatrix) -> np.ndarray:
     a = sp.csr_matrix(matrix, copy=True)
     a.data = np.ones(len(a.data))
     pattern = (a + a.T).tocsr()
-    pattern.setdiag(0)
+    pattern = (pattern - sp.diags(pattern.diagonal())).tocsr()  # the diagonal is no neighbour
     pattern.eliminate_zeros()
     degree = np.diff(pattern.indptr)
     dense = degree > max(DENSE_MIN, DENSE_FACTOR * math.sqrt(max(n, 1)))

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from operator import attrgetter
 
 import numpy as np
 
@@ -130,7 +131,9 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
                                 "junction leakage?); the -3 dB figure may be inaccurate")
     # -- records (columns computed with numpy, then turned into Python lists once) --------
     caps = _capacitor_records(keep, table, excess, cascoded, shares, sum_tau)
-    caps.sort(key=lambda c: (-c.tau_s, c.name))
+    # by time constant, largest first, equal ones by name: two stable sorts on C-level keys
+    caps.sort(key=attrgetter("name"))
+    caps.sort(key=attrgetter("tau_s"), reverse=True)
     nodes = _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, settings.miller_threshold)
     methods = {"z": z_method, "poles": found.method}
     return Analysis(
@@ -260,5 +263,6 @@ def _nodes(ss, keep, a_rows, b_rows, table, excess, sum_tau, threshold) -> list[
     dominated = ((taus > 0) & (mts >= threshold * taus)).tolist()
     out = [NodeResult(names[row + 1], t, sh, mt, ms, dom)
            for row, t, sh, mt, ms, dom in zip(touched.tolist(), taus.tolist(), shares, mts.tolist(), m_share, dominated)]
-    out.sort(key=lambda r: (-r.tau_s, r.node))
+    out.sort(key=attrgetter("node"))
+    out.sort(key=attrgetter("tau_s"), reverse=True)
     return out

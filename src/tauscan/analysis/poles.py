@@ -23,7 +23,7 @@ import scipy.linalg as la
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from tauscan.ordering import fill_reducing_order
+from tauscan.ordering import SUPERNODES, fill_reducing_order
 
 #: Up to this many unknowns all poles are found with a dense eigen-solver.
 DENSE_LIMIT = 800
@@ -298,13 +298,15 @@ class ComplexSolver:
         threshold."""
         matrix = (self._g + s * self._c).tocsc()
         try:
-            lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+            lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True},
+                           **SUPERNODES)
         except RuntimeError:
             if matrix.shape[0] > PIVOTING_LIMIT:
                 # threshold pivoting on a large circuit can fill without bound (a 5e5-line
                 # chain went past 20 GB): report this frequency as singular instead
                 raise
-            lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+            lu = spla.splu(matrix, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True},
+                           **SUPERNODES)
         return Factored(lu, s, matrix)
 
     def _fixed_voltages(self, b: np.ndarray) -> np.ndarray:

@@ -29,7 +29,7 @@ import scipy.sparse.linalg as spla
 
 from tauscan.circuit import GROUND
 from tauscan.errors import CircuitError
-from tauscan.ordering import PermutedLU, fill_reducing_order
+from tauscan.ordering import SUPERNODES, PermutedLU, fill_reducing_order
 
 #: Above this many distinct columns the selected inversion is used when it applies.
 SELECTED_MIN_COLUMNS = 2000
@@ -51,7 +51,7 @@ def factor(matrix: sp.csc_matrix, what: str = "G") -> PermutedLU:
     q = fill_reducing_order(matrix)
     try:
         lu = spla.splu(matrix.tocsc()[q][:, q].tocsc(), permc_spec="NATURAL", diag_pivot_thresh=0.01,
-                       options={"SymmetricMode": True})
+                       options={"SymmetricMode": True}, **SUPERNODES)
     except RuntimeError as exc:
         raise CircuitError(f"the small-signal matrix {what} is singular ({exc}); a node without any path?") from None
     return PermutedLU(lu, q)
@@ -106,7 +106,7 @@ def selected(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray) -> np.ndarray
     a = a[q][:, q].tocsc()
     r, c = at[r], at[c]
     try:
-        lu = spla.splu(a, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+        lu = spla.splu(a, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True}, **SUPERNODES)
     except RuntimeError:
         raise _NotClosed() from None
     if not np.array_equal(lu.perm_r, lu.perm_c):

@@ -26,7 +26,7 @@ from tauscan.errors import CircuitError, ConvergenceError
 from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
 from tauscan.op.result import OperatingPoint
-from tauscan.ordering import fill_reducing_order
+from tauscan.ordering import SUPERNODES, fill_reducing_order
 
 #: Newton steps taken after convergence to polish the solution (see DCSolver._polish).
 POLISH_STEPS = 2
@@ -80,7 +80,8 @@ class _OrderedLU:
             self.perm = fill_reducing_order(matrix)
             self.inverse = np.argsort(self.perm)
         permuted = matrix[self.perm][:, self.perm].tocsc()
-        lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True})
+        lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True},
+                       **SUPERNODES)
         self.last = lu
         perm, inverse = self.perm, self.inverse
         return lambda b: lu.solve(b[perm])[inverse]

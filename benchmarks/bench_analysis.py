@@ -45,6 +45,7 @@ def main() -> None:
     from netlist_gen import chain_file
 
     from tauscan.analysis import AnalysisSettings, analyze_network
+    from tauscan.gcpause import paused_gc
     from tauscan.linear import linearize
     from tauscan.op import solve_dc
     from tauscan.reader import read_netlist
@@ -54,11 +55,12 @@ def main() -> None:
     for target in (int(x) for x in args.nodes.split(",")):
         with chain_file(target * 12 // 5) as path:  # about 5 nodes per stage with 4 wiring segments
             op = solve_dc(read_netlist(path))
-        t0 = time.perf_counter()
-        ss = linearize(op)
-        t1 = time.perf_counter()
-        result = analyze_network(ss, op, None, None, AnalysisSettings(response=not args.no_response))
-        t2 = time.perf_counter()
+        with paused_gc():  # as the pipeline runs these stages
+            t0 = time.perf_counter()
+            ss = linearize(op)
+            t1 = time.perf_counter()
+            result = analyze_network(ss, op, None, None, AnalysisSettings(response=not args.no_response))
+            t2 = time.perf_counter()
         ground = ss.ac_ground
         cols = np.unique([ss.row(x) for c in ss.capacitors for x in (c.a, c.b) if x not in ground])
         if ss.n_nodes > args.skip_baseline_above:

@@ -10,7 +10,7 @@ from tauscan.errors import ExpressionError, NetlistSyntaxError
 from tauscan.reader import lines as lines_mod
 from tauscan.reader import read_netlist
 from tauscan.reader.fields import grammar_fields
-from tauscan.reader.lines import PLAIN_LINE, Card
+from tauscan.reader.lines import PLAIN_BLOCK, PLAIN_DEVICE, PLAIN_LINE, Card
 
 from tests.conftest import examples
 
@@ -28,13 +28,21 @@ def two_terminal_lines(draw):
 
 
 def _agree(text: str) -> None:
-    match = PLAIN_LINE.fullmatch(text.lower())  # the reader matches lines in lower case
+    match = PLAIN_LINE.fullmatch(text)
+    # the chunk search takes exactly the lines the pattern matches into its blocks, between
+    # other lines and at the end of the text
+    for tail in ("* after\n", ""):
+        found = list(PLAIN_BLOCK.finditer(f"* before\n{text}\n{tail}"))
+        blocks = "".join(m.group(1) for m in found)
+        others = [m.group()[len(m.group(1)):] for m in found]
+        assert blocks == (text + "\n" if match else ""), text
+        assert [x for x in others if x] == ["* before\n"] + ([] if match else [text + "\n"]) + ([tail] if tail else [])
     if match is None:
         return  # the card path reads it
     kind, fields = grammar_fields(Card(text, "f", 1))
     assert kind == "element", text
     assert [f[0] for f in fields] == ["w"] * 4, text
-    assert [f[1].lower() for f in fields] == list(match.groups()), text
+    assert [f[1].lower() for f in fields] == [g.lower() for g in match.groups()], text
 
 
 @settings(max_examples=examples(600), deadline=None)
@@ -46,11 +54,37 @@ def test_a_plain_line_is_what_the_grammar_reads(text):
 def test_plain_and_not_plain():
     plain = ["R1 a b 1k", "c_par.3 n<1> 0 .5f", "Rx a b RVAL", "C9\tx y 1E-15  "]
     for text in plain:
-        assert PLAIN_LINE.fullmatch(text.lower()), text
+        assert PLAIN_LINE.fullmatch(text), text
         _agree(text)
     for text in ["R1 a b 1k ; c", "R1 a b 1k m=2", "R1 a b {r}", "R1 a b", "R1 a b 1 2", " R1 a b 1",
                  "M1 a b c d", "R1 a .b 1", "R1 a b 'r'", "L1 a b 1n", "R1 a $b 1"]:
-        assert PLAIN_LINE.fullmatch(text.lower()) is None, text
+        assert PLAIN_LINE.fullmatch(text) is None, text
+
+
+@st.composite
+def mosfet_lines(draw):
+    nodes = [draw(word) for _ in range(5)]
+    pairs = [draw(word) + "=" + draw(word) for _ in range(draw(st.integers(0, 3)))]
+    parts = [draw(st.sampled_from("Mm")) + draw(word)] + nodes + pairs
+    return "".join(p + draw(sep) for p in parts).rstrip()
+
+
+@settings(max_examples=examples(600), deadline=None)
+@given(mosfet_lines())
+def test_a_plain_mosfet_line_is_what_the_grammar_reads(text):
+    """A line the plain MOSFET pattern takes is split by the flattener into words and
+    ``key=value`` pairs; the grammar must read the same fields from it."""
+    if PLAIN_DEVICE.fullmatch(text) is None:
+        return  # the card path reads it
+    found = list(PLAIN_BLOCK.finditer(f"* before\n{text}\n"))
+    assert [m.lastindex for m in found][:2] == [1, 2], text  # the chunk search marks it too
+    kind, fields = grammar_fields(Card(text, "f", 1))
+    assert kind == "element", text
+    words = text.lower().split()
+    assert [f[0] for f in fields] == ["w"] * 6 + ["p"] * (len(words) - 6), text
+    assert [f[1].lower() for f in fields[:6]] == words[:6], text
+    pairs = "=".join(words[6:]).split("=")
+    assert [(f[1][0], f[1][1][1].lower()) for f in fields[6:]] == list(zip(pairs[0::2], pairs[1::2])), text
 
 
 NETLIST = """mixed plain and card lines
@@ -137,6 +171,15 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
     ("t\nC1 a b 1e999\n", 2, 8, NetlistSyntaxError, "out of range"),
     ("t\nR1 a b 1\nM1 d g s b nope w=1u\n", 3, 12, NetlistSyntaxError, "model 'nope' is not defined"),
     ("t\n.model n nmos\nM1 d g s b n\nR2 a b 1\nM1 d g s b n w=1u\n", 5, 1, NetlistSyntaxError, "first at {}:3"),
+    # plain rows and plain MOSFET lines of one run: the first line at fault, in file order
+    ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n\nr1 x y 2\n", 5, 1, NetlistSyntaxError, "first at {}:3"),
+    ("t\n.model n nmos\nMa d g s b n\nR1 a b 1\nmA x y z w n\n", 5, 1, NetlistSyntaxError, "first at {}:3"),
+    ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n\nR1 b c 2\nR2 c d 0\n", 5, 1, NetlistSyntaxError, "first at {}:3"),
+    ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n w=wx\nR2 c d 0\n", 4, 16, ExpressionError, "undefined parameter 'wx'"),
+    ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n\nR2 c d 0\nM2 d g s b nope\n", 5, 8, NetlistSyntaxError,
+     "zero resistance"),
+    ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n\nR2 c d 1\nM2 d g s b nope\n", 6, 12, NetlistSyntaxError,
+     "model 'nope' is not defined"),
 ])
 def test_errors_in_plain_lines_are_located(write, text, line, col, error, message):
     path = write(text)

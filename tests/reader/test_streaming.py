@@ -84,3 +84,31 @@ def test_cr_only_line_ends_keep_their_line_numbers(tmp_path, monkeypatch, chunk)
     with pytest.raises(TauscanError) as info:
         read_netlist(str(path))
     assert info.value.line == 4
+
+
+PLAIN = ("line ends\nR1 a b 1k\nC1 b 0 2p\nM1 d g 0 0 nch w=1u\nR2 b 0 2k\n.model nch nmos (vto=0.4)\n"
+         "C2 d 0 1p\nR3 d 0 {nowhere}")
+
+
+@pytest.mark.parametrize("end", ["\n", "\r\n", "\r", "\x0c", "\u2028"])
+@pytest.mark.parametrize("chunk", [4, 1 << 20])
+@pytest.mark.parametrize("last", ["", "final"])
+def test_every_kind_of_line_end_reads_the_same(tmp_path, monkeypatch, end, chunk, last):
+    """Plain lines, plain MOSFET lines and cards with LF, CR LF, CR, form feed and Unicode line
+    separators (which str.splitlines counts), with or without a last line end: the same
+    elements, line numbers and error location."""
+    monkeypatch.setattr(lines_mod, "CHUNK_BYTES", chunk)
+    text = PLAIN.replace("\n", end) + (end if last else "")
+    path = tmp_path / "e.sp"
+    path.write_bytes(text.encode("utf-8"))
+    from tauscan.errors import ExpressionError
+
+    with pytest.raises(ExpressionError) as info:
+        read_netlist(str(path))
+    assert (info.value.line, info.value.col) == (8, 9)  # hand-counted: the name inside the braces
+    good = tmp_path / "g.sp"
+    good.write_bytes(text.replace("{nowhere}", "3k").encode("utf-8"))
+    circuit = read_netlist(str(good))
+    assert [(e.name, e.line) for e in circuit.elements] == [
+        ("r1", 2), ("c1", 3), ("m1", 4), ("r2", 5), ("c2", 7), ("r3", 8)]
+    assert circuit.elements[2].params == {"w": 1e-6}

@@ -9,7 +9,8 @@ places which.
 from __future__ import annotations
 
 import math
-from itertools import repeat
+from itertools import chain, islice, repeat
+from operator import attrgetter, itemgetter
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
@@ -104,9 +105,8 @@ class Flattener:
         self.circuit = Circuit(netlist.title, netlist.file)
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
-        #: element name -> its card (elements with an object); the table's names apart
-        self.seen: dict[str, Card | DeviceLine] = {}
-        self.plain_names: set[str] = set()
+        #: the name of every element taken so far (in the table or not)
+        self.names: set[str] = set()
 
     # -- models ----------------------------------------------------------------
     def model_for(self, frame: Frame, name: str) -> str | None:
@@ -188,30 +188,134 @@ class Flattener:
                     self.circuit.options[key] = str(f[1])
 
     def _plain_run(self, frame: Frame, run: PlainRun) -> None:
-        """A run of plain R and C lines, column by column, into the circuit's table: the
-        checks of :func:`~tauscan.reader.elements.passive`, without an object per line."""
-        columns, lo, hi = run.columns, run.lo, run.hi
-        count = hi - lo
+        """A run of plain R and C lines, column by column, into the circuit's table (the checks
+        of :func:`~tauscan.reader.elements.passive`, without an object per line), and the plain
+        MOSFET lines among them."""
+        if not run.devices:
+            self._commit_rows(run, *self._rows(frame, run, run.lo, run.hi))
+            return
+        if self._run_at_once(frame, run):
+            return
+        # one piece at a time, in order: an error is then the one of the first line at fault
+        lo = run.lo
+        for k, at in enumerate(run.at):
+            if at > lo:
+                self._commit_rows(run, *self._rows(frame, run, lo, at))
+                lo = at
+            self._device_line(frame, run.device(k))
+        if run.hi > lo:
+            self._commit_rows(run, *self._rows(frame, run, lo, run.hi))
+
+    def _run_at_once(self, frame: Frame, run: PlainRun) -> bool:
+        """The rows and the MOSFETs of a run taken together; False, with nothing taken, when
+        anything is amiss (a MOSFET line needing the card path, a value in error, a name met
+        before)."""
+        base = len(self.circuit.passives) - run.lo  # rows before the run's first
+        elements = self._device_elements(frame, run, base)
+        if elements is None:
+            return False
+        try:
+            rows = self._rows(frame, run, run.lo, run.hi)
+        except TauscanError:
+            return False
+        names = self.names
+        before = len(names)
+        names.update(rows[3])
+        names.update(map(attrgetter("name"), elements))
+        if len(names) != before + len(rows[3]) + len(elements):
+            self._rebuild_names()
+            return False
+        self._commit_rows(run, *rows, checked=True)
+        self.circuit.general += elements
+        return True
+
+    def _rebuild_names(self) -> None:
+        """The set of names again from what was taken (after a failed batch added to it)."""
+        self.names = set(self.circuit.passives.names)
+        self.names.update(e.name for e in self.circuit.general)
+
+    def _first_at(self, name: str) -> str:
+        """``file:line`` of the element of that name taken before."""
+        table = self.circuit.passives
+        if name in table.names:
+            row = table.names.index(name)
+            return f"{table.files[row]}:{table.lines[row]}"
+        element = next(e for e in self.circuit.general if e.name == name)
+        return f"{element.file}:{element.line}"
+
+    def _device_elements(self, frame: Frame, run: PlainRun, base: int) -> list[Element] | None:
+        """:meth:`_device_element` of every plain MOSFET line of a run, word columns at a time
+        (``base``: table rows before the run's first row); None when one of them needs the card
+        path."""
+        lines = "\n".join(run.devices).lower().split("\n")
+        words = list(map(str.split, lines))
+        known = frame._models
+        for name in set(map(itemgetter(5), words)).difference(known):
+            frame.model(name)
+        models = list(map(known.__getitem__, map(itemgetter(5), words)))
+        if None in models:
+            return None
+        pairs = list(map(itemgetter(slice(6, None)), words))
+        flat = "=".join(chain.from_iterable(pairs)).split("=")  # every pair holds exactly one '='
+        texts = flat[1::2]
+        values = list(map(_NUMBERS.get, texts))
+        if None in values:
+            for k, text in enumerate(texts):
+                if values[k] is None:
+                    value = parse_number(text)
+                    if value is None or not math.isfinite(value):
+                        return None
+                    if len(_NUMBERS) < _NUMBERS_MAX:
+                        _NUMBERS[text] = value
+                    values[k] = value
+        items = iter(zip(flat[0::2], values))
+        params = [dict(islice(items, n)) for n in map(len, pairs)]
+        nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), words))) for k in (1, 2, 3, 4))))
+        names = list(map(itemgetter(0), words))
+        if frame.prefix:
+            names = list(map(frame.prefix.__add__, names))
+        count = len(words)
+        return list(map(Element, names, repeat("m", count), nodes, repeat(None, count), models, params,
+                        repeat(run.file, count), run.device_lines, repeat(None, count), repeat((), count),
+                        repeat("", count), map(base.__add__, run.at)))
+
+    def _rows(self, frame: Frame, run: PlainRun, lo: int, hi: int) -> tuple:
+        """Rows ``lo`` to ``hi`` of a run's columns evaluated and checked, not yet taken:
+        ``(frame, lo, hi, names, kinds, values, warnings)``."""
+        columns = run.columns
         names = columns.names[lo:hi]
         if frame.prefix:
             names = list(map(frame.prefix.__add__, names))
         words = columns.values[lo:hi]
         values = list(map(_NUMBERS.get, words))
         if None in values:
-            self._plain_values(frame, run, words, values)
+            self._plain_values(frame, run, lo, words, values)
         kinds = columns.kinds[lo:hi]
-        if 0.0 in values or min(values) < 0.0:
+        warnings = []
+        if values and (0.0 in values or min(values) < 0.0):
             for k, (kind, value) in enumerate(zip(kinds, values)):
                 if kind == "c" and value == 0.0:
-                    self.circuit.warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
+                    warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
                 else:
-                    check_passive_value(kind, value, PlainValueCard(run, k, words[k]), 0)
+                    check_passive_value(kind, value, PlainValueCard(run, lo + k, words[k]), 0)
+        return frame, lo, hi, names, kinds, values, warnings
+
+    def _commit_rows(self, run: PlainRun, frame: Frame, lo: int, hi: int, names: list[str], kinds: list[str],
+                     values: list[float], warnings: list[str], checked: bool = False) -> None:
+        """Take rows that :meth:`_rows` made into the table (``checked``: their names are known
+        to be new)."""
+        count = hi - lo
+        if not count:
+            return
+        if not checked:
+            known = self.names
+            before = len(known)
+            known.update(names)
+            if len(known) != before + count:
+                self._rebuild_names()
+                self._duplicate_in_run(run, lo, names)
+        columns = run.columns
         table = self.circuit.passives
-        plain_names = self.plain_names
-        before = len(plain_names)
-        plain_names.update(names)
-        if len(plain_names) != before + count or not self.seen.keys().isdisjoint(names):
-            self._duplicate_in_run(run, names)
         table.kinds += kinds
         table.names += names
         table.a += frame.nodes(columns.a[lo:hi])
@@ -219,67 +323,76 @@ class Flattener:
         table.values += values
         table.files += repeat(run.file, count)
         table.lines += columns.lines[lo:hi]
+        if warnings:
+            self.circuit.warnings += warnings
 
     def _device_line(self, frame: Frame, item: DeviceLine) -> None:
-        """A plain MOSFET line: what :func:`~tauscan.reader.elements.mosfet` makes of it, split
-        here directly; anything unusual (an unknown model, a parameter that is not a number)
-        goes through the card path, which says what is wrong or evaluates it."""
-        words = item.raw.lower().split()
-        model = frame.model(words[5])
-        params: dict[str, float] | None = {} if model is not None else None
-        if params is not None:
-            for word in words[6:]:
-                key, _, text = word.partition("=")
-                value = _NUMBERS.get(text)
-                if value is None:
-                    value = parse_number(text)
-                    if value is None or not math.isfinite(value):
-                        params = None
-                        break
-                    if len(_NUMBERS) < _NUMBERS_MAX:
-                        _NUMBERS[text] = value
-                params[key] = value
-        if params is None:
+        """A plain MOSFET line (see :meth:`_device_element`); anything unusual (an unknown
+        model, a parameter that is not a number) goes through the card path, which says what
+        is wrong or evaluates it."""
+        element = self._device_element(frame, item)
+        if element is None:
             card = item.card()
             fields = card_fields(card)[1]
             self._add(self._element(frame, fields[0][1].lower(), fields, card), card)
             return
-        node = frame.node
-        nodes = (node(words[1]), node(words[2]), node(words[3]), node(words[4]))
-        self._add(Element(frame.prefix + words[0], "m", nodes, None, model, params, item.file, item.line), item)
+        self._add(element, item)
 
     @staticmethod
-    def _plain_values(frame: Frame, run: PlainRun, words: list[str], values: list) -> None:
-        """Fill in the values not met before: new numbers, and names of parameters."""
+    def _device_element(frame: Frame, item: DeviceLine) -> Element | None:
+        """What :func:`~tauscan.reader.elements.mosfet` makes of a plain MOSFET line, split
+        here directly; None when the model is unknown or a value is not a plain number."""
+        words = item.raw.lower().split()
+        model = frame.model(words[5])
+        if model is None:
+            return None
+        params: dict[str, float] = {}
+        if len(words) > 6:
+            pairs = "=".join(words[6:]).split("=")  # every pair holds exactly one '='
+            texts = pairs[1::2]
+            values = list(map(_NUMBERS.get, texts))
+            if None in values:
+                for k, text in enumerate(texts):
+                    if values[k] is None:
+                        value = parse_number(text)
+                        if value is None or not math.isfinite(value):
+                            return None
+                        if len(_NUMBERS) < _NUMBERS_MAX:
+                            _NUMBERS[text] = value
+                        values[k] = value
+            params = dict(zip(pairs[0::2], values))
+        node = frame.node
+        nodes = (node(words[1]), node(words[2]), node(words[3]), node(words[4]))
+        return Element(frame.prefix + words[0], "m", nodes, None, model, params, item.file, item.line)
+
+    @staticmethod
+    def _plain_values(frame: Frame, run: PlainRun, lo: int, words: list[str], values: list) -> None:
+        """Fill in the values not met before (rows from ``lo``): new numbers, and names of
+        parameters."""
         for k, word in enumerate(words):
             if values[k] is not None:
                 continue
+            value = _NUMBERS.get(word)  # met earlier in this run
+            if value is not None:
+                values[k] = value
+                continue
             value = parse_number(word)
             if value is None or not math.isfinite(value):  # a parameter's name, or out of range
-                value = field_value(("w", word, 0), PlainValueCard(run, k, word), frame.scope)
+                value = field_value(("w", word, 0), PlainValueCard(run, lo + k, word), frame.scope)
             elif len(_NUMBERS) < _NUMBERS_MAX:
                 _NUMBERS[word] = value
             values[k] = value
 
-    def _duplicate_in_run(self, run: PlainRun, names: list[str]) -> None:
-        """Raise for the first name of a run met before (in the run or earlier)."""
-        table = self.circuit.passives
-        before = set(table.names)
-        before.update(e.name for e in self.circuit.general)
+    def _duplicate_in_run(self, run: PlainRun, lo: int, names: list[str]) -> None:
+        """Raise for the first name of rows from ``lo`` met before (among them or earlier)."""
         for k, name in enumerate(names):
-            if name in before:
-                if name in table.names:
-                    row = table.names.index(name)
-                    where = f"{table.files[row]}:{table.lines[row]}"
-                else:
-                    element = next(e for e in self.circuit.general if e.name == name)
-                    where = f"{element.file}:{element.line}"
+            if name in self.names:
+                where = self._first_at(name)
             elif name in names[:k]:
-                j = names.index(name)
-                where = f"{run.file}:{run.columns.lines[run.lo + j]}"
+                where = f"{run.file}:{run.columns.lines[lo + names.index(name)]}"
             else:
                 continue
-            raise run.card(k).error(NetlistSyntaxError, f"element {name!r} is defined twice (first at {where})", 0)
+            raise run.card(lo + k).error(NetlistSyntaxError, f"element {name!r} is defined twice (first at {where})", 0)
 
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
         pos: list[Field] = []
@@ -289,16 +402,10 @@ class Flattener:
         return RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
 
     def _add(self, element: Element, card: Card | DeviceLine) -> None:
-        first = self.seen.get(element.name)
-        if first is not None or element.name in self.plain_names:
-            if first is None:
-                table = self.circuit.passives
-                row = table.names.index(element.name)
-                where = f"{table.files[row]}:{table.lines[row]}"
-            else:
-                where = f"{first.file}:{first.line}"
+        if element.name in self.names:
+            where = self._first_at(element.name)
             raise card.error(NetlistSyntaxError, f"element {element.name!r} is defined twice (first at {where})", 0)
-        self.seen[element.name] = card
+        self.names.add(element.name)
         if element.kind == "c" and element.value == 0:
             self.circuit.warnings.append(f"{card.file}:{card.line}: capacitor {element.name} has zero value")
         element.rows_before = len(self.circuit.passives)

@@ -15,10 +15,11 @@ from __future__ import annotations
 import bisect
 import os
 import re
+import sys
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
-from itertools import chain, compress
-from operator import itemgetter, not_
+from itertools import chain
+from operator import itemgetter
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
 
@@ -60,15 +61,33 @@ class Card:
 #: A word of a plain line: the grammar's WORD (grammar/netlist.lark) without ';' and '$'
 #: (which may start comments).  A test holds lines this matches to what the grammar reads.
 _PLAIN_WORD = r"""(?:[^\s=(){}'",.;$][^\s=(){}'",;$]*|\.[^\sA-Za-z_=(){}'",;$][^\s=(){}'",;$]*)"""
-#: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else
-#: (matched on the line in lower case: every word of a plain line is case-insensitive).
+#: The name of a plain line: R or C, then what a grammar WORD may hold.
+_PLAIN_NAME = r"""[rRcC][^\s=(){}'",;$]*"""
+#: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else.
 PLAIN_LINE = re.compile(
-    rf"""([rc][^\s=(){{}}'",;$]*)[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
-_GROUPS = re.Match.groups
-#: A plain MOSFET line (in lower case): a name, four nodes, a model, then only ``key=value``
-#: pairs of plain words.  Such a line is handed on as a :class:`DeviceLine`, not a card.
-PLAIN_DEVICE = re.compile(
-    rf"""m[^\s=(){{}}'",;$]*(?:[ \t]+{_PLAIN_WORD}){{5}}(?:[ \t]+{_PLAIN_WORD}={_PLAIN_WORD})*[ \t]*""")
+    rf"""({_PLAIN_NAME})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
+#: The body of a plain MOSFET line: a name, four nodes, a model, then only ``key=value`` pairs
+#: of plain words.  Such a line is handed on as a :class:`DeviceLine`, not a card.
+_PLAIN_DEVICE = (rf"""[mM][^\s=(){{}}'",;$]*(?:[ \t]+{_PLAIN_WORD}){{5}}"""
+                 rf"""(?:[ \t]+{_PLAIN_WORD}={_PLAIN_WORD})*[ \t]*""")
+PLAIN_DEVICE = re.compile(_PLAIN_DEVICE)
+#: A block of plain lines (group 1, perhaps empty), then the line after it (group 2 set when
+#: that is a plain MOSFET line, :data:`PLAIN_DEVICE`) or the end of the text.  The search of a
+#: chunk's text goes block by block: plain lines take no Python step.  On Python 3.11 and
+#: later the repetition is possessive (a block is never given back; it would never have to
+#: be), which spares the regular-expression engine its backtracking records.
+PLAIN_BLOCK = re.compile(
+    rf"""^((?:{_PLAIN_NAME}[ \t]+{_PLAIN_WORD}[ \t]+{_PLAIN_WORD}[ \t]+{_PLAIN_WORD}[ \t]*\n)*"""
+    + ("+" if sys.version_info >= (3, 11) else "")
+    + rf""")(?:({_PLAIN_DEVICE})\n|[^\n]*\n|\Z)""", re.M)
+#: Line ends other than LF that :meth:`str.splitlines` knows (a chunk holding one is rejoined).
+_OTHER_LINE_ENDS = "\r\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029"
+
+
+def _other_line_ends(text: str) -> bool:
+    """Whether ``text`` holds a line end other than LF (one scan of the text per character:
+    much quicker than a search for a class of characters)."""
+    return any(end in text for end in _OTHER_LINE_ENDS)
 
 
 @dataclass(slots=True)
@@ -93,33 +112,50 @@ class PlainColumns:
 
     __slots__ = ("kinds", "names", "a", "b", "values", "lines")
 
-    def __init__(self, matches: list, numbers: list[int]) -> None:
-        groups = list(map(_GROUPS, matches))
-        self.names: list[str] = list(map(itemgetter(0), groups))
-        self.kinds: list[str] = list(map(itemgetter(0), self.names))
-        self.a: list[str] = list(map(itemgetter(1), groups))
-        self.b: list[str] = list(map(itemgetter(2), groups))
-        self.values: list[str] = list(map(itemgetter(3), groups))
-        self.lines: list[int] = numbers
+    def __init__(self) -> None:
+        self.kinds: list[str] = []
+        self.names: list[str] = []
+        self.a: list[str] = []
+        self.b: list[str] = []
+        self.values: list[str] = []
+        self.lines: list[int] = []
+
+    def fill(self, pieces: list[str], numbers: list[int]) -> None:
+        """Take the text of the plain lines (every line ends with a line feed): four words a
+        line, split at once."""
+        words = "".join(pieces).lower().split()
+        self.names = words[0::4]
+        self.kinds = list(map(itemgetter(0), self.names))
+        self.a = words[1::4]
+        self.b = words[2::4]
+        self.values = words[3::4]
+        self.lines = numbers
 
 
 @dataclass(slots=True)
 class PlainRun:
-    """Consecutive plain lines of one file (rows ``lo`` to ``hi`` of a chunk's columns)."""
+    """Consecutive plain lines of one file (rows ``lo`` to ``hi`` of a chunk's columns), and
+    the plain MOSFET lines among them (:data:`PLAIN_DEVICE`): ``devices[k]``, the text of line
+    ``device_lines[k]``, stands before row ``at[k]``."""
 
     columns: PlainColumns
     lo: int
     hi: int
     file: str
+    devices: list[str] | None = None
+    device_lines: list[int] | None = None
+    at: list[int] | None = None
 
-    def card(self, k: int) -> Card:
-        """Row ``k`` of the run as a card, for an error or a warning about it: the line is read
-        again from the file (plain lines keep only their words)."""
-        number = self.columns.lines[self.lo + k]
+    def device(self, k: int) -> DeviceLine:
+        return DeviceLine(self.devices[k], self.file, self.device_lines[k])
+
+    def card(self, i: int) -> Card:
+        """Row ``i`` of the columns as a card, for an error or a warning about it: the line is
+        read again from the file (plain lines keep only their words)."""
+        c = self.columns
+        number = c.lines[i]
         raw = _physical_line(self.file, number)
         if raw is None:
-            c = self.columns
-            i = self.lo + k
             raw = " ".join((c.names[i], c.a[i], c.b[i], c.values[i]))
         return Card(raw, self.file, number, "", raw)
 
@@ -129,13 +165,13 @@ class PlainValueCard:
     is read again only when an error must show it (a netlist may hold thousands of plain lines
     whose values name parameters).  Offsets given to :meth:`error` count from the value's start."""
 
-    __slots__ = ("run", "k", "word")
+    __slots__ = ("run", "i", "word")
 
-    def __init__(self, run: PlainRun, k: int, word: str) -> None:
-        self.run, self.k, self.word = run, k, word
+    def __init__(self, run: PlainRun, i: int, word: str) -> None:
+        self.run, self.i, self.word = run, i, word  # row ``i`` of the run's columns
 
     def error(self, cls: type, message: str, offset: int = 0):
-        card = self.run.card(self.k)
+        card = self.run.card(self.i)
         return card.error(cls, message, card.text.lower().rindex(self.word) + offset)
 
 
@@ -150,7 +186,7 @@ def _physical_line(path: str, number: int) -> str | None:
 
 
 #: Bytes read and decoded at a time: the file is never held whole, in bytes or in text.
-CHUNK_BYTES = 4 << 20
+CHUNK_BYTES = 1 << 20
 
 
 def decode(data: bytes, file: str, first_line: int = 1) -> str:
@@ -177,13 +213,13 @@ def decode(data: bytes, file: str, first_line: int = 1) -> str:
 
 def read_lines(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[str]:
     """The lines of one netlist file (see :func:`read_chunks`)."""
-    return chain.from_iterable(read_chunks(path, shown, progress))
+    return chain.from_iterable(map(str.splitlines, read_chunks(path, shown, progress)))
 
 
-def read_chunks(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[list[str]]:
-    """The lines of one netlist file, a chunk's list at a time, read and decoded a chunk at
-    a time (so that no more than one chunk of the file is ever held besides what the caller
-    keeps).  The file is opened at once, so that a missing file is an error of this call;
+def read_chunks(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[str]:
+    """The text of one netlist file, a chunk of whole lines at a time, read and decoded a
+    chunk at a time (so that no more than one chunk of the file is ever held besides what the
+    caller keeps).  The file is opened at once, so that a missing file is an error of this call;
     ``progress(done, total)`` is told the bytes read after each chunk."""
     shown = shown or path
     try:
@@ -201,10 +237,10 @@ def read_chunks(path: str, shown: str | None = None, progress: Callable[[int, in
     if size > MAX_FILE_BYTES:
         handle.close()
         raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
-    return _chunked_lines(handle, shown, size, progress)
+    return _chunked_text(handle, shown, size, progress)
 
 
-def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[list[str]]:
+def _chunked_text(handle, shown: str, size: int, progress) -> Iterator[str]:
     line = 1
     done = 0
     pending = b""
@@ -219,7 +255,7 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[list[str
                 raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
             if not chunk:
                 if pending:
-                    yield decode(pending, shown, line).splitlines()
+                    yield decode(pending, shown, line)
                 return
             data = pending + chunk if pending else chunk
             cut = data.rfind(b"\n") + 1
@@ -235,13 +271,18 @@ def _chunked_lines(handle, shown: str, size: int, progress) -> Iterator[list[str
             pending = data[cut:]
             text = decode(data[:cut] if pending else data, shown, line)
             del data, chunk
-            lines = text.splitlines()  # the chunk ends with a line end: one entry per line
+            line += _line_count(text)
+            yield text
             del text
-            line += len(lines)
-            yield lines
-            del lines
             if progress is not None:
                 progress(done, size)
+
+
+def _line_count(text: str) -> int:
+    """Lines in a text that ends with a line end (as :meth:`str.splitlines` counts them)."""
+    if not _other_line_ends(text):
+        return text.count("\n")
+    return len(text.splitlines())
 
 
 def _split_comment(raw: str) -> tuple[str, str]:
@@ -273,21 +314,21 @@ def _split_comment(raw: str) -> tuple[str, str]:
 def logical_lines(lines: str | list[str], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
     """Cards and plain runs of one file's text (or list of lines), and its title
     (see :func:`logical_items`)."""
-    if isinstance(lines, str):
-        lines = lines.splitlines()
+    if not isinstance(lines, str):
+        lines = "".join(line + "\n" for line in lines)
     return logical_items([lines], file, has_title=has_title)
 
 
-def logical_items(chunks: Iterable[list[str]], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
+def logical_items(chunks: Iterable[str], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
     """Cards and runs of plain lines of one file in order, and its title (the first line)
     when ``has_title``.
 
-    ``chunks`` are the file's lines, a list at a time (as :func:`read_chunks` gives them).
+    ``chunks`` are the file's text, whole lines at a time (as :func:`read_chunks` gives them).
     ``.end`` stops reading; ``.control`` ... ``.endc`` blocks are skipped whole.
     """
     state = _PrePass(file, has_title)
-    for lines in chunks:
-        if not state.chunk(lines):
+    for text in chunks:
+        if not state.chunk(text):
             break
     return state.title, state.items
 
@@ -305,65 +346,124 @@ class _PrePass:
         self.in_control = False
         self.number = 0  # physical lines before the chunk at hand
 
-    def chunk(self, lines: list[str]) -> bool:
-        """Take one chunk of lines; False once ``.end`` is read."""
-        first = self.number + 1
-        self.number += len(lines)
-        matches = list(map(PLAIN_LINE.fullmatch, map(str.lower, lines)))
-        if first == 1 and self.has_title and matches:
-            matches[0] = None  # the title is never a card
-        if max(map(len, lines), default=0) > MAX_LINE_CHARS:  # the line-by-line path says which
-            matches = [None] * len(lines)
-        at = list(compress(range(len(lines)), matches))
-        columns = PlainColumns(list(compress(matches, matches)), list(map(first.__add__, at))) if at else None
+    def chunk(self, text: str) -> bool:
+        """Take one chunk of whole lines; False once ``.end`` is read.
+
+        The search (:data:`PLAIN_BLOCK`) takes the plain lines a block at a time; those are
+        kept as pieces of text and split into columns at the end of the chunk, four words a
+        line."""
+        if _other_line_ends(text):
+            text = "\n".join(text.splitlines()) + "\n"
+        elif text[-1:] != "\n":
+            text += "\n"
+        line = self.number + 1  # the number of the line at ``pos``
+        self.number += text.count("\n")
+        pos = 0
+        if line == 1 and self.has_title:  # the title is never a card
+            pos = text.index("\n") + 1
+            self.title = text[: pos - 1].strip()
+            line = 2
+        columns = PlainColumns()
+        pieces: list[str] = []  # the text of the plain lines taken, in order
+        numbers: list[int] = []  # their line numbers
+        rows = 0  # plain lines taken
         lo = 0  # the first plain row not yet taken into a run or a card
-        for i in compress(range(len(lines)), map(not_, matches)):
-            raw = lines[i]
-            number = first + i
-            if number == 1 and self.has_title:
-                self.title = raw.strip()
-                continue
+        devices: list[str] = []  # plain MOSFET lines since then
+        device_lines: list[int] = []  # their line numbers
+        at: list[int] = []  # the row each stands before
+        try:
+            for match in PLAIN_BLOCK.finditer(text, pos):
+                start, end = match.span(1)
+                if end > start:  # plain lines
+                    count = text.count("\n", start, end)
+                    if not self.in_control:  # (plain lines inside a .control block are dropped)
+                        if end - start > MAX_LINE_CHARS:
+                            self._long_plain_line(text[start:end], line)
+                        pieces.append(text[start:end])
+                        numbers += range(line, line + count)
+                        rows += count
+                    line += count
+                stop = match.end()
+                if stop == end:  # the end of the text
+                    break
+                raw = text[end : stop - 1]
+                number = line
+                line += 1
+                if len(raw) > MAX_LINE_CHARS:
+                    raise NetlistSyntaxError(
+                        f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file,
+                        number, 1, raw[:60])
+                if match.lastindex == 2 and not self.in_control:  # a plain MOSFET line: part of the run
+                    devices.append(raw)
+                    device_lines.append(number)
+                    at.append(rows)
+                    continue
+                stripped = raw.lstrip()
+                if not stripped or stripped[0] == "*":
+                    continue
+                head = stripped[:6].lower()
+                if self.in_control:
+                    if head.startswith(".endc"):
+                        self.in_control = False
+                    continue
+                # the lines before this one form a run (the last of them is a card of its own
+                # when this line continues it)
+                if stripped[0] == "+":
+                    last = self._close(columns, pieces, numbers, lo, rows, devices, device_lines, at)
+                    if last is not None:  # a plain MOSFET line, continued: a card after all
+                        self.current = last.card()
+                        self.items.append(self.current)
+                else:
+                    self._run(columns, lo, rows, devices, device_lines, at)
+                lo = rows
+                devices, device_lines, at = [], [], []
+                if head.startswith(".contr"):
+                    self.in_control = True
+                    continue
+                if not self._line(raw, stripped, head, number):
+                    return False
+            if not self.in_control:
+                # the last line stays apart: the next chunk may continue it
+                last = self._close(columns, pieces, numbers, lo, rows, devices, device_lines, at)
+                if last is not None:
+                    self.current = last
+                    self.items.append(last)
+            return True
+        finally:
+            if rows:
+                columns.fill(pieces, numbers)
+
+    def _close(self, columns: PlainColumns, pieces: list[str], numbers: list[int], lo: int, rows: int,
+               devices: list[str], device_lines: list[int], at: list[int]) -> DeviceLine | None:
+        """Take the lines since row ``lo`` into a run, all but the last: a plain last line
+        becomes a card (the current one), a plain MOSFET line is given back."""
+        if rows > lo and (not devices or at[-1] < rows):
+            self._run(columns, lo, rows - 1, devices, device_lines, at)
+            self.current = self._plain_card(pieces[-1], numbers[rows - 1])
+            return None
+        if devices:
+            self._run(columns, lo, rows, devices[:-1], device_lines[:-1], at[:-1])
+            return DeviceLine(devices[-1], self.file, device_lines[-1])
+        return None
+
+    def _long_plain_line(self, piece: str, first: int) -> None:
+        for k, raw in enumerate(piece.split("\n")):
             if len(raw) > MAX_LINE_CHARS:
                 raise NetlistSyntaxError(
-                    f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file, number, 1,
-                    raw[:60])
-            stripped = raw.lstrip()
-            if not stripped or stripped[0] == "*":
-                continue
-            head = stripped[:6].lower()
-            if self.in_control:
-                if head.startswith(".endc"):
-                    self.in_control = False
-                    lo = bisect.bisect_left(at, i, lo)  # the plain lines inside are dropped
-                continue
-            # the plain lines before this one form a run (the last of them is a card of its own
-            # when this line continues it)
-            hi = bisect.bisect_left(at, i, lo)
-            if stripped[0] == "+" and hi > lo:
-                self._run(columns, lo, hi - 1)
-                self.current = self._plain_card(lines, at[hi - 1], first)
-            else:
-                self._run(columns, lo, hi)
-            lo = hi
-            if head.startswith(".contr"):
-                self.in_control = True
-                continue
-            if not self._line(raw, stripped, head, number):
-                return False
-        if not self.in_control:
-            # the last plain line stays a card: the next chunk may continue it
-            hi = len(at)
-            if hi > lo:
-                self._run(columns, lo, hi - 1)
-                self.current = self._plain_card(lines, at[hi - 1], first)
-        return True
+                    f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file,
+                    first + k, 1, raw[:60])
 
-    def _run(self, columns: PlainColumns | None, lo: int, hi: int) -> None:
-        if hi > lo and columns is not None:
+    def _run(self, columns: PlainColumns, lo: int, hi: int, devices: list[str], device_lines: list[int],
+             at: list[int]) -> None:
+        if devices:
+            self.items.append(PlainRun(columns, lo, hi, self.file, devices, device_lines, at))
+        elif hi > lo:
             self.items.append(PlainRun(columns, lo, hi, self.file))
 
-    def _plain_card(self, lines: list[str], i: int, first: int) -> Card:
-        card = Card(lines[i], self.file, first + i, "", lines[i])
+    def _plain_card(self, piece: str, number: int) -> Card:
+        """The last line of a piece of plain lines as a card of its own."""
+        raw = piece[piece.rfind("\n", 0, len(piece) - 1) + 1 : -1]
+        card = Card(raw, self.file, number, "", raw)
         self.items.append(card)
         return card
 
@@ -396,9 +496,6 @@ class _PrePass:
         if head.startswith(".end") and (len(head) == 4 or not head[4].isalnum()):
             self.current = None
             return False
-        if raw[0] in "mM" and not comment and PLAIN_DEVICE.fullmatch(raw.lower()):
-            self.current = DeviceLine(raw, file, number)
-        else:
-            self.current = Card(body, file, number, comment, raw)
+        self.current = Card(body, file, number, comment, raw)
         self.items.append(self.current)
         return True

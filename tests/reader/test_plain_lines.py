@@ -76,8 +76,8 @@ def test_a_plain_mosfet_line_is_what_the_grammar_reads(text):
     ``key=value`` pairs; the grammar must read the same fields from it."""
     if PLAIN_DEVICE.fullmatch(text) is None:
         return  # the card path reads it
-    found = list(PLAIN_BLOCK.finditer(f"* before\n{text}\n"))
-    assert [m.lastindex for m in found][:2] == [1, 2], text  # the chunk search marks it too
+    found = PLAIN_BLOCK.findall(f"* before\n{text}\n")
+    assert found[:2] == [("", "", "* before"), ("", text, "")], text  # the chunk search marks it too
     kind, fields = grammar_fields(Card(text, "f", 1))
     assert kind == "element", text
     words = text.lower().split()
@@ -188,3 +188,14 @@ def test_errors_in_plain_lines_are_located(write, text, line, col, error, messag
     assert (info.value.line, info.value.col) == (line, col)
     assert message.format(path) in info.value.message
     assert info.value.text == text.splitlines()[line - 1]
+
+
+def test_the_written_out_white_space_is_what_python_counts_as_white_space():
+    """The plain-line patterns list white space character by character (for speed); the list
+    must be exactly what str.isspace and a pattern's \\s take (Python's documentation of
+    str.split and of re's \\s)."""
+    import re
+
+    every = "".join(map(chr, range(0x110000)))
+    listed = set(re.findall(f"[{lines_mod._SPACE}]", every))
+    assert listed == {c for c in every if c.isspace()} == set(re.findall(r"\s", every))

@@ -247,8 +247,8 @@ class Flattener:
         """:meth:`_device_element` of every plain MOSFET line of a run, word columns at a time
         (``base``: table rows before the run's first row); None when one of them needs the card
         path."""
-        lines = "\n".join(run.devices).lower().split("\n")
-        words = list(map(str.split, lines))
+        text = "\n".join(run.devices).lower()
+        words = list(map(str.split, text.split("\n")))
         known = frame._models
         for name in set(map(itemgetter(5), words)).difference(known):
             frame.model(name)
@@ -270,7 +270,10 @@ class Flattener:
                     values[k] = value
         items = iter(zip(flat[0::2], values))
         params = [dict(islice(items, n)) for n in map(len, pairs)]
-        nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), words))) for k in (1, 2, 3, 4))))
+        if frame.parent is None and "gnd" not in text:  # the names as written
+            nodes = list(map(itemgetter(1, 2, 3, 4), words))
+        else:
+            nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), words))) for k in (1, 2, 3, 4))))
         names = list(map(itemgetter(0), words))
         if frame.prefix:
             names = list(map(frame.prefix.__add__, names))
@@ -318,8 +321,12 @@ class Flattener:
         table = self.circuit.passives
         table.kinds += kinds
         table.names += names
-        table.a += frame.nodes(columns.a[lo:hi])
-        table.b += frame.nodes(columns.b[lo:hi])
+        if frame.parent is None and not columns.ground_names:  # the names as written
+            table.a += columns.a[lo:hi]
+            table.b += columns.b[lo:hi]
+        else:
+            table.a += frame.nodes(columns.a[lo:hi])
+            table.b += frame.nodes(columns.b[lo:hi])
         table.values += values
         table.files += repeat(run.file, count)
         table.lines += columns.lines[lo:hi]

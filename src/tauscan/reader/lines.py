@@ -18,8 +18,8 @@ import re
 import sys
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
-from itertools import chain
-from operator import itemgetter
+from itertools import accumulate, chain, compress, repeat
+from operator import add, itemgetter
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
 
@@ -58,28 +58,35 @@ class Card:
         return cls(message, self.file, line, col, src)
 
 
+#: White space as :meth:`str.isspace` (and ``\\s`` in a pattern) has it, written out (a test
+#: holds the two to each other): a class holding ``\\s`` checks every character with a call,
+#: a class of listed characters with a bit table.
+_SPACE = "\\t\\n\\x0b\\x0c\\r\\x1c-\\x1f \\x85\\xa0\\u1680\\u2000-\\u200a\\u2028\\u2029\\u202f\\u205f\\u3000"
+#: What a word of a plain line never holds.
+_NOT_WORD = _SPACE + """=(){}'",;$"""
+#: Possessive repetition where Python has it (3.11): no repetition here ever has to give back
+#: what it took (each is followed by what it cannot take), so the engine may skip its records.
+_Q = "+" if sys.version_info >= (3, 11) else ""
 #: A word of a plain line: the grammar's WORD (grammar/netlist.lark) without ';' and '$'
 #: (which may start comments).  A test holds lines this matches to what the grammar reads.
-_PLAIN_WORD = r"""(?:[^\s=(){}'",.;$][^\s=(){}'",;$]*|\.[^\sA-Za-z_=(){}'",;$][^\s=(){}'",;$]*)"""
+_PLAIN_WORD = rf"""(?:[^{_NOT_WORD}.][^{_NOT_WORD}]*{_Q}|\.[^{_NOT_WORD}A-Za-z_][^{_NOT_WORD}]*{_Q})"""
 #: The name of a plain line: R or C, then what a grammar WORD may hold.
-_PLAIN_NAME = r"""[rRcC][^\s=(){}'",;$]*"""
+_PLAIN_NAME = rf"""[rRcC][^{_NOT_WORD}]*{_Q}"""
+_GAP = rf"[ \t]+{_Q}"
 #: A plain two-terminal line: an R or C name, two nodes and a value, and nothing else.
 PLAIN_LINE = re.compile(
-    rf"""({_PLAIN_NAME})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]+({_PLAIN_WORD})[ \t]*""")
+    rf"""({_PLAIN_NAME}){_GAP}({_PLAIN_WORD}){_GAP}({_PLAIN_WORD}){_GAP}({_PLAIN_WORD})[ \t]*{_Q}""")
 #: The body of a plain MOSFET line: a name, four nodes, a model, then only ``key=value`` pairs
 #: of plain words.  Such a line is handed on as a :class:`DeviceLine`, not a card.
-_PLAIN_DEVICE = (rf"""[mM][^\s=(){{}}'",;$]*(?:[ \t]+{_PLAIN_WORD}){{5}}"""
-                 rf"""(?:[ \t]+{_PLAIN_WORD}={_PLAIN_WORD})*[ \t]*""")
+_PLAIN_DEVICE = (rf"""[mM][^{_NOT_WORD}]*{_Q}""" + f"{_GAP}{_PLAIN_WORD}" * 5
+                 + rf"""(?:{_GAP}{_PLAIN_WORD}={_PLAIN_WORD})*{_Q}[ \t]*{_Q}""")
 PLAIN_DEVICE = re.compile(_PLAIN_DEVICE)
-#: A block of plain lines (group 1, perhaps empty), then the line after it (group 2 set when
-#: that is a plain MOSFET line, :data:`PLAIN_DEVICE`) or the end of the text.  The search of a
-#: chunk's text goes block by block: plain lines take no Python step.  On Python 3.11 and
-#: later the repetition is possessive (a block is never given back; it would never have to
-#: be), which spares the regular-expression engine its backtracking records.
+#: A block of plain lines (group 1, perhaps empty), then the line after it (group 2 when that
+#: is a plain MOSFET line, :data:`PLAIN_DEVICE`, else group 3) or the end of the text.  The
+#: search of a chunk's text goes block by block: plain lines take no Python step.
 PLAIN_BLOCK = re.compile(
-    rf"""^((?:{_PLAIN_NAME}[ \t]+{_PLAIN_WORD}[ \t]+{_PLAIN_WORD}[ \t]+{_PLAIN_WORD}[ \t]*\n)*"""
-    + ("+" if sys.version_info >= (3, 11) else "")
-    + rf""")(?:({_PLAIN_DEVICE})\n|[^\n]*\n|\Z)""", re.M)
+    rf"""^((?:{_PLAIN_NAME}{_GAP}{_PLAIN_WORD}{_GAP}{_PLAIN_WORD}{_GAP}{_PLAIN_WORD}[ \t]*{_Q}\n)*{_Q})"""
+    rf"""(?:({_PLAIN_DEVICE})\n|([^\n]*{_Q})\n|\Z)""", re.M)
 #: Line ends other than LF that :meth:`str.splitlines` knows (a chunk holding one is rejoined).
 _OTHER_LINE_ENDS = "\r\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029"
 
@@ -108,28 +115,26 @@ class DeviceLine:
 
 class PlainColumns:
     """The plain lines of one chunk in columns, lower case (names, nodes, the value's text),
-    and their physical line numbers."""
+    and their physical line numbers; ``blocks`` keeps their text, block by block (for a
+    line that turns out to stand apart)."""
 
-    __slots__ = ("kinds", "names", "a", "b", "values", "lines")
+    __slots__ = ("kinds", "names", "a", "b", "values", "lines", "blocks", "ground_names")
 
-    def __init__(self) -> None:
-        self.kinds: list[str] = []
-        self.names: list[str] = []
-        self.a: list[str] = []
-        self.b: list[str] = []
-        self.values: list[str] = []
-        self.lines: list[int] = []
-
-    def fill(self, pieces: list[str], numbers: list[int]) -> None:
-        """Take the text of the plain lines (every line ends with a line feed): four words a
-        line, split at once."""
-        words = "".join(pieces).lower().split()
-        self.names = words[0::4]
-        self.kinds = list(map(itemgetter(0), self.names))
-        self.a = words[1::4]
-        self.b = words[2::4]
-        self.values = words[3::4]
-        self.lines = numbers
+    def __init__(self, file: str, blocks: tuple[str, ...], counts: list[int], start: list[int]) -> None:
+        """``blocks``: the text of the plain lines, every line ending with a line feed;
+        ``counts[k]`` lines in block ``k``, the first of them line ``start[k]``."""
+        text = "".join(blocks).lower()
+        #: whether a node may be named as ground otherwise than "0" (see the flattener)
+        self.ground_names = "gnd" in text
+        words = text.split()  # four words a line
+        del text
+        self.names: list[str] = words[0::4]
+        self.kinds: list[str] = list(map(itemgetter(0), self.names))
+        self.a: list[str] = words[1::4]
+        self.b: list[str] = words[2::4]
+        self.values: list[str] = words[3::4]
+        self.lines: list[int] = list(chain.from_iterable(map(range, start, map(add, start, counts))))
+        self.blocks = blocks
 
 
 @dataclass(slots=True)
@@ -333,6 +338,24 @@ def logical_items(chunks: Iterable[str], file: str, *, has_title: bool) -> tuple
     return state.title, state.items
 
 
+class _Stretch:
+    """The lines of matches ``lo`` to ``k`` of a chunk's search (the blocks of all of them,
+    the MOSFET lines of all but the last): rows ``lo`` to ``hi`` of the columns, and the
+    MOSFET lines among them as ``(text, line number, row it stands before)``."""
+
+    __slots__ = ("columns", "row", "lo", "hi", "devices")
+
+    def __init__(self, columns: "PlainColumns", devices: tuple[str, ...], row: list[int], start: list[int],
+                 lo: int, k: int) -> None:
+        self.columns = columns
+        self.row = row
+        self.lo = row[lo]
+        self.hi = row[k + 1] if k < len(devices) else row[k]
+        at = list(compress(range(lo, k), devices[lo:k]))
+        self.devices = list(zip(map(devices.__getitem__, at), map((-1).__add__, map(start.__getitem__, map((1).__add__, at))),
+                                map(row.__getitem__, map((1).__add__, at))))
+
+
 class _PrePass:
     """The state of the pre-pass across chunks: the card being continued, a ``.control``
     block, the title, and the items so far."""
@@ -349,102 +372,115 @@ class _PrePass:
     def chunk(self, text: str) -> bool:
         """Take one chunk of whole lines; False once ``.end`` is read.
 
-        The search (:data:`PLAIN_BLOCK`) takes the plain lines a block at a time; those are
-        kept as pieces of text and split into columns at the end of the chunk, four words a
-        line."""
+        One search of the text (:data:`PLAIN_BLOCK`) cuts it into blocks of plain lines, each
+        followed by one line: a plain MOSFET line or any other.  Only the other lines that are
+        not blank take a Python step each; the blocks, the MOSFET lines between them and
+        their line numbers are taken in columns."""
         if _other_line_ends(text):
             text = "\n".join(text.splitlines()) + "\n"
         elif text[-1:] != "\n":
             text += "\n"
-        line = self.number + 1  # the number of the line at ``pos``
+        first = self.number + 1  # the line number at ``pos``
         self.number += text.count("\n")
         pos = 0
-        if line == 1 and self.has_title:  # the title is never a card
+        if first == 1 and self.has_title:  # the title is never a card
             pos = text.index("\n") + 1
             self.title = text[: pos - 1].strip()
-            line = 2
-        columns = PlainColumns()
-        pieces: list[str] = []  # the text of the plain lines taken, in order
-        numbers: list[int] = []  # their line numbers
-        rows = 0  # plain lines taken
-        lo = 0  # the first plain row not yet taken into a run or a card
-        devices: list[str] = []  # plain MOSFET lines since then
-        device_lines: list[int] = []  # their line numbers
-        at: list[int] = []  # the row each stands before
-        try:
-            for match in PLAIN_BLOCK.finditer(text, pos):
-                start, end = match.span(1)
-                if end > start:  # plain lines
-                    count = text.count("\n", start, end)
-                    if not self.in_control:  # (plain lines inside a .control block are dropped)
-                        if end - start > MAX_LINE_CHARS:
-                            self._long_plain_line(text[start:end], line)
-                        pieces.append(text[start:end])
-                        numbers += range(line, line + count)
-                        rows += count
-                    line += count
-                stop = match.end()
-                if stop == end:  # the end of the text
-                    break
-                raw = text[end : stop - 1]
-                number = line
-                line += 1
-                if len(raw) > MAX_LINE_CHARS:
-                    raise NetlistSyntaxError(
-                        f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file,
-                        number, 1, raw[:60])
-                if match.lastindex == 2 and not self.in_control:  # a plain MOSFET line: part of the run
-                    devices.append(raw)
-                    device_lines.append(number)
-                    at.append(rows)
-                    continue
-                stripped = raw.lstrip()
-                if not stripped or stripped[0] == "*":
-                    continue
-                head = stripped[:6].lower()
-                if self.in_control:
-                    if head.startswith(".endc"):
-                        self.in_control = False
-                    continue
-                # the lines before this one form a run (the last of them is a card of its own
-                # when this line continues it)
-                if stripped[0] == "+":
-                    last = self._close(columns, pieces, numbers, lo, rows, devices, device_lines, at)
-                    if last is not None:  # a plain MOSFET line, continued: a card after all
-                        self.current = last.card()
-                        self.items.append(self.current)
-                else:
-                    self._run(columns, lo, rows, devices, device_lines, at)
-                lo = rows
-                devices, device_lines, at = [], [], []
-                if head.startswith(".contr"):
-                    self.in_control = True
-                    continue
-                if not self._line(raw, stripped, head, number):
-                    return False
-            if not self.in_control:
-                # the last line stays apart: the next chunk may continue it
-                last = self._close(columns, pieces, numbers, lo, rows, devices, device_lines, at)
-                if last is not None:
-                    self.current = last
-                    self.items.append(last)
+            first = 2
+        found = PLAIN_BLOCK.findall(text, pos)
+        del text
+        if not found:
             return True
-        finally:
-            if rows:
-                columns.fill(pieces, numbers)
+        blocks, devices, others = zip(*found)
+        del found
+        counts = list(map(str.count, blocks, repeat("\n")))
+        # match k: its block's rows start at row[k] and line start[k]; its own line is
+        # start[k + 1] - 1 (the last matches, at the end of the text, have none)
+        row = list(accumulate(counts, initial=0))
+        start = list(accumulate(map((1).__add__, counts), initial=first))
+        columns = PlainColumns(self.file, blocks, counts, start)
+        if max(map(len, others)) > MAX_LINE_CHARS or max(map(len, devices)) > MAX_LINE_CHARS:
+            self._long_line(others, devices, start)
+        if max(map(len, blocks)) > MAX_LINE_CHARS:
+            for k, block in enumerate(blocks):
+                if len(block) > MAX_LINE_CHARS:
+                    self._long_plain_line(block, start[k])
+        lo = 0  # the first match whose lines are not yet taken
+        for k in compress(range(len(others)), others):  # the lines that are neither plain nor blank
+            raw = others[k]
+            stripped = raw.lstrip()
+            if not stripped or stripped[0] == "*":
+                continue
+            head = stripped[:6].lower()
+            if self.in_control:
+                if head.startswith(".endc"):
+                    self.in_control = False
+                    lo = k + 1  # the plain and MOSFET lines inside are dropped
+                continue
+            # the lines before this one form a run (the last of them stands apart when this
+            # line continues it)
+            stretch = _Stretch(columns, devices, row, start, lo, k)
+            if stripped[0] == "+":
+                last = self._close(stretch)
+                if last is not None:  # a plain MOSFET line, continued: a card after all
+                    self.current = last.card()
+                    self.items.append(self.current)
+            else:
+                self._run(stretch, stretch.hi, stretch.devices)
+            lo = k + 1
+            if head.startswith(".contr"):
+                self.in_control = True
+                continue
+            if not self._line(raw, stripped, head, start[k + 1] - 1):
+                return False
+        if not self.in_control:
+            # the last line stays apart: the next chunk may continue it
+            last = self._close(_Stretch(columns, devices, row, start, lo, len(others)))
+            if last is not None:
+                self.current = last
+                self.items.append(last)
+        return True
 
-    def _close(self, columns: PlainColumns, pieces: list[str], numbers: list[int], lo: int, rows: int,
-               devices: list[str], device_lines: list[int], at: list[int]) -> DeviceLine | None:
-        """Take the lines since row ``lo`` into a run, all but the last: a plain last line
-        becomes a card (the current one), a plain MOSFET line is given back."""
-        if rows > lo and (not devices or at[-1] < rows):
-            self._run(columns, lo, rows - 1, devices, device_lines, at)
-            self.current = self._plain_card(pieces[-1], numbers[rows - 1])
+    def _close(self, stretch: "_Stretch") -> DeviceLine | None:
+        """Take a stretch into a run, all but its last line: a plain last line becomes a card
+        (the current one), a plain MOSFET line is given back."""
+        devices = stretch.devices
+        rows = stretch.hi
+        if rows > stretch.lo and (not devices or devices[-1][2] < rows):
+            self._run(stretch, rows - 1, devices)
+            self.current = self._plain_card(stretch, rows - 1)
             return None
         if devices:
-            self._run(columns, lo, rows, devices[:-1], device_lines[:-1], at[:-1])
-            return DeviceLine(devices[-1], self.file, device_lines[-1])
+            self._run(stretch, rows, devices[:-1])
+            raw, number, _ = devices[-1]
+            return DeviceLine(raw, self.file, number)
         return None
+
+    def _run(self, stretch: "_Stretch", hi: int, devices: list[tuple[str, int, int]]) -> None:
+        if devices:
+            raws, numbers, at = map(list, zip(*devices))
+            self.items.append(PlainRun(stretch.columns, stretch.lo, hi, self.file, raws, numbers, at))
+        elif hi > stretch.lo:
+            self.items.append(PlainRun(stretch.columns, stretch.lo, hi, self.file))
+
+    def _plain_card(self, stretch: "_Stretch", i: int) -> Card:
+        """Row ``i`` of the columns, a plain line, as a card of its own."""
+        columns = stretch.columns
+        k = bisect.bisect_right(stretch.row, i) - 1  # the match whose block holds the row
+        block = columns.blocks[k]
+        lines = block.split("\n")
+        raw = lines[i - stretch.row[k]]
+        card = Card(raw, self.file, columns.lines[i], "", raw)
+        self.items.append(card)
+        return card
+
+    def _long_line(self, others: tuple[str, ...], devices: tuple[str, ...], start: list[int]) -> None:
+        for k, (other, device) in enumerate(zip(others, devices)):
+            raw = other or device
+            if len(raw) > MAX_LINE_CHARS:
+                raise NetlistSyntaxError(
+                    f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file,
+                    start[k + 1] - 1, 1, raw[:60])
 
     def _long_plain_line(self, piece: str, first: int) -> None:
         for k, raw in enumerate(piece.split("\n")):
@@ -452,20 +488,6 @@ class _PrePass:
                 raise NetlistSyntaxError(
                     f"line of {len(raw)} characters is longer than the limit of {MAX_LINE_CHARS}", self.file,
                     first + k, 1, raw[:60])
-
-    def _run(self, columns: PlainColumns, lo: int, hi: int, devices: list[str], device_lines: list[int],
-             at: list[int]) -> None:
-        if devices:
-            self.items.append(PlainRun(columns, lo, hi, self.file, devices, device_lines, at))
-        elif hi > lo:
-            self.items.append(PlainRun(columns, lo, hi, self.file))
-
-    def _plain_card(self, piece: str, number: int) -> Card:
-        """The last line of a piece of plain lines as a card of its own."""
-        raw = piece[piece.rfind("\n", 0, len(piece) - 1) + 1 : -1]
-        card = Card(raw, self.file, number, "", raw)
-        self.items.append(card)
-        return card
 
     def _line(self, raw: str, stripped: str, head: str, number: int) -> bool:
         """One line that is not plain, not a comment and not in a ``.control`` block."""

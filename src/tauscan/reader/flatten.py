@@ -9,8 +9,8 @@ places which.
 from __future__ import annotations
 
 import math
-from itertools import chain, islice, repeat
-from operator import attrgetter, itemgetter
+from itertools import repeat
+from operator import attrgetter, itemgetter, methodcaller
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
@@ -30,6 +30,27 @@ MAX_DEPTH = 1000
 
 GROUND_NAMES = frozenset(["0", "gnd", "gnd!"])
 _GROUND_OF = {name: GROUND for name in GROUND_NAMES}
+
+
+#: The first six words of a line and the rest (see :meth:`Flattener._device_elements`).
+_SEVEN = methodcaller("split", None, 6)
+
+
+def _numeric_params(rest: str) -> dict[str, float] | None:
+    """``key=value`` pairs (the text after a plain MOSFET line's model, ending in the word '.')
+    when every value is a plain number; None otherwise."""
+    params: dict[str, float] = {}
+    for word in rest.split()[:-1]:
+        key, _, text = word.partition("=")
+        value = _NUMBERS.get(text)
+        if value is None:
+            value = parse_number(text)
+            if value is None or not math.isfinite(value):
+                return None
+            if len(_NUMBERS) < _NUMBERS_MAX:
+                _NUMBERS[text] = value
+        params[key] = value
+    return params
 
 
 class Frame:
@@ -107,6 +128,9 @@ class Flattener:
         self.circuit.warnings.extend(netlist.warnings)
         #: the name of every element taken so far (in the table or not)
         self.names: set[str] = set()
+        #: the parameters of plain MOSFET lines by their text: lines that read the same share
+        #: one dictionary (elements' parameters are never changed once read)
+        self.param_sets: dict[str, dict[str, float]] = {}
 
     # -- models ----------------------------------------------------------------
     def model_for(self, frame: Frame, name: str) -> str | None:
@@ -154,8 +178,12 @@ class Flattener:
         while stack:
             frame, index = stack.pop()
             cards = frame.definition.elements
+            once = frame is root  # the top level is expanded once: what it held is let go as
+            # it is taken (a chunk's columns are freed with its last run, for the table to grow into)
             while index < len(cards):
                 item = cards[index]
+                if once:
+                    cards[index] = None
                 index += 1
                 if type(item) is PlainRun:
                     self._plain_run(frame, item)
@@ -246,38 +274,38 @@ class Flattener:
     def _device_elements(self, frame: Frame, run: PlainRun, base: int) -> list[Element] | None:
         """:meth:`_device_element` of every plain MOSFET line of a run, word columns at a time
         (``base``: table rows before the run's first row); None when one of them needs the card
-        path."""
-        text = "\n".join(run.devices).lower()
-        words = list(map(str.split, text.split("\n")))
+        path.  Lines whose parameters read the same share one dictionary of them."""
+        # a last word '.' on every line: the seventh part is then the parameters' text and it
+        text = " .\n".join(run.devices).lower() + " ."
+        parts = list(map(_SEVEN, text.split("\n")))
         known = frame._models
-        for name in set(map(itemgetter(5), words)).difference(known):
+        for name in set(map(itemgetter(5), parts)).difference(known):
             frame.model(name)
-        models = list(map(known.__getitem__, map(itemgetter(5), words)))
+        models = list(map(known.__getitem__, map(itemgetter(5), parts)))
         if None in models:
             return None
-        pairs = list(map(itemgetter(slice(6, None)), words))
-        flat = "=".join(chain.from_iterable(pairs)).split("=")  # every pair holds exactly one '='
-        texts = flat[1::2]
-        values = list(map(_NUMBERS.get, texts))
-        if None in values:
-            for k, text in enumerate(texts):
-                if values[k] is None:
-                    value = parse_number(text)
-                    if value is None or not math.isfinite(value):
-                        return None
-                    if len(_NUMBERS) < _NUMBERS_MAX:
-                        _NUMBERS[text] = value
-                    values[k] = value
-        items = iter(zip(flat[0::2], values))
-        params = [dict(islice(items, n)) for n in map(len, pairs)]
+        shared = self.param_sets
+        rests = list(map(itemgetter(6), parts))
+        params = list(map(shared.get, rests))
+        if None in params:
+            for k, rest in enumerate(rests):
+                if params[k] is None:
+                    found = shared.get(rest)
+                    if found is None:
+                        found = _numeric_params(rest)
+                        if found is None:
+                            return None
+                        if len(shared) < _NUMBERS_MAX:
+                            shared[rest] = found
+                    params[k] = found
         if frame.parent is None and "gnd" not in text:  # the names as written
-            nodes = list(map(itemgetter(1, 2, 3, 4), words))
+            nodes = list(map(itemgetter(1, 2, 3, 4), parts))
         else:
-            nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), words))) for k in (1, 2, 3, 4))))
-        names = list(map(itemgetter(0), words))
+            nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), parts))) for k in (1, 2, 3, 4))))
+        names = list(map(itemgetter(0), parts))
         if frame.prefix:
             names = list(map(frame.prefix.__add__, names))
-        count = len(words)
+        count = len(parts)
         return list(map(Element, names, repeat("m", count), nodes, repeat(None, count), models, params,
                         repeat(run.file, count), run.device_lines, repeat(None, count), repeat((), count),
                         repeat("", count), map(base.__add__, run.at)))

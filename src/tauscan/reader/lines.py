@@ -399,6 +399,14 @@ class _PrePass:
         row = list(accumulate(counts, initial=0))
         start = list(accumulate(map((1).__add__, counts), initial=first))
         columns = PlainColumns(self.file, blocks, counts, start)
+        try:
+            return self._matches(columns, blocks, devices, others, row, start)
+        finally:
+            columns.blocks = ()  # needed no more: the text is let go
+
+    def _matches(self, columns: "PlainColumns", blocks: tuple[str, ...], devices: tuple[str, ...],
+                 others: tuple[str, ...], row: list[int], start: list[int]) -> bool:
+        """The lines of one chunk's matches (see :meth:`chunk`)."""
         if max(map(len, others)) > MAX_LINE_CHARS or max(map(len, devices)) > MAX_LINE_CHARS:
             self._long_line(others, devices, start)
         if max(map(len, blocks)) > MAX_LINE_CHARS:

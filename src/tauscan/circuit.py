@@ -66,7 +66,9 @@ class Element:
 
     ``value`` is the principal value (ohms, farads, henries, the source's DC
     value, a controlled source's gain or a coupling factor); ``control`` names
-    the controlling voltage source of F/H and the inductors of K.
+    the controlling voltage source of F/H and the inductors of K.  ``params`` is read-only:
+    MOSFET lines whose parameters read the same share one dictionary (a big extracted netlist
+    repeats a few geometries thousands of times).
     """
 
     name: str

@@ -199,3 +199,31 @@ def test_the_written_out_white_space_is_what_python_counts_as_white_space():
     every = "".join(map(chr, range(0x110000)))
     listed = set(re.findall(f"[{lines_mod._SPACE}]", every))
     assert listed == {c for c in every if c.isspace()} == set(re.findall(r"\s", every))
+
+
+def test_mosfet_lines_with_the_same_parameters_share_them_and_nothing_changes_them(tmp_path):
+    """Plain MOSFET lines reading the same parameters share one dictionary; the values are
+    those the card path gives, and reading, biasing and analysing leave them unchanged."""
+    import sys
+    from pathlib import Path
+
+    from tauscan import api
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "benchmarks"))
+    from netlist_gen import stage_chain
+
+    path = tmp_path / "chain.sp"
+    path.write_text(stage_chain(400))
+    circuit = read_netlist(str(path))
+    mosfets = [e for e in circuit.elements if e.kind == "m"]
+    assert len(mosfets) > 10
+    assert len({id(e.params) for e in mosfets}) == 1  # one text, one dictionary
+    # hand-read from the generator's line: w=4u l=0.5u ad=2p as=2p pd=5u ps=5u
+    expected = {"w": 4e-6, "l": 0.5e-6, "ad": 2e-12, "as": 2e-12, "pd": 5e-6, "ps": 5e-6}
+    assert mosfets[0].params == pytest.approx(expected)
+    before = [dict(e.params) for e in mosfets]
+    api.analyze(api.bias(circuit))  # on this very circuit
+    assert [dict(e.params) for e in mosfets] == before
+    carded = tmp_path / "carded.sp"
+    carded.write_text("".join(line + (" ; card\n" if line[:1] == "M" else "\n") for line in stage_chain(400).splitlines()))
+    assert [e.params for e in read_netlist(str(carded)).elements if e.kind == "m"] == before

@@ -323,7 +323,7 @@ class Flattener:
             self._plain_values(frame, run, lo, words, values)
         kinds = columns.kinds[lo:hi]
         warnings = []
-        if values and (0.0 in values or min(values) < 0.0):
+        if values and min(values) <= 0.0:  # (every value is finite)
             for k, (kind, value) in enumerate(zip(kinds, values)):
                 if kind == "c" and value == 0.0:
                     warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")

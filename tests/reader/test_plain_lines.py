@@ -227,3 +227,54 @@ def test_mosfet_lines_with_the_same_parameters_share_them_and_nothing_changes_th
     carded = tmp_path / "carded.sp"
     carded.write_text("".join(line + (" ; card\n" if line[:1] == "M" else "\n") for line in stage_chain(400).splitlines()))
     assert [e.params for e in read_netlist(str(carded)).elements if e.kind == "m"] == before
+
+
+@st.composite
+def mixed_netlists(draw):
+    """Netlists of plain R and C lines, plain MOSFET lines, continued lines, comments, blank
+    lines and .control blocks in any order (names numbered so that none repeats)."""
+    out = ["mixed", ".model nch nmos (vto=0.4 kp=100u)"]
+    for k in range(draw(st.integers(1, 40))):
+        kind = draw(st.sampled_from(["r", "c", "m", "m+", "r+", "comment", "blank", "control", "v"]))
+        if kind in ("r", "r+"):
+            out.append(f"R{k} n{k % 5} n{(k + 1) % 5} {draw(st.sampled_from(['1k', '2.2K', '10', '1meg']))}")
+            if kind == "r+":
+                out.append(draw(st.sampled_from(["+ m=2", "* between\n+ m=3"])))
+        elif kind == "c":
+            out.append(f"C{k} n{k % 5} {draw(st.sampled_from(['0', 'gnd', 'n1']))} {draw(st.sampled_from(['1p', '0.5f', '3e-15']))}")
+        elif kind in ("m", "m+"):
+            out.append(f"M{k} n{k % 5} n1 0 0 nch w={draw(st.sampled_from(['1u', '2u']))}")
+            if kind == "m+":
+                out.append("+ l=0.3u")
+        elif kind == "comment":
+            out.append("* a comment")
+        elif kind == "blank":
+            out.append("")
+        elif kind == "control":
+            out.append(f".control\nR9{k} a b 1\nM9{k} a b c d nch\n.endc")
+        else:
+            out.append(f"V{k} n{k % 5} 0 1")
+    out.append("V0x n0 0 1")
+    return "\n".join(out) + "\n"
+
+
+@settings(max_examples=examples(60), deadline=None)
+@given(mixed_netlists(), st.sampled_from([5, 17, 64, 1 << 20]))
+def test_any_mix_of_lines_reads_as_the_card_path_reads_it(tmp_path_factory, text, chunk):
+    """The block search, at any chunk size, gives what the grammar's card path gives for the
+    same netlist with every element line made a card (an inline comment on each)."""
+    folder = tmp_path_factory.mktemp("mix")
+    plain = folder / "plain.sp"
+    plain.write_text(text)
+    carded = folder / "carded.sp"
+    carded.write_text("".join(line + (" ; card\n" if line[:1] in "RCM" else "\n") for line in text.splitlines()))
+    saved = lines_mod.CHUNK_BYTES
+    lines_mod.CHUNK_BYTES = chunk
+    try:
+        a = read_netlist(str(plain))
+    finally:
+        lines_mod.CHUNK_BYTES = saved
+    b = read_netlist(str(carded))
+    assert _all(a) == _all(b)
+    assert a.nodes() == b.nodes()
+    assert [w.replace("plain.sp", "x") for w in a.warnings] == [w.replace("carded.sp", "x") for w in b.warnings]

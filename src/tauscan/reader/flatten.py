@@ -36,19 +36,27 @@ _GROUND_OF = {name: GROUND for name in GROUND_NAMES}
 _SEVEN = methodcaller("split", None, 6)
 
 
-def _numeric_params(rest: str) -> dict[str, float] | None:
-    """``key=value`` pairs (the text after a plain MOSFET line's model, ending in the word '.')
-    when every value is a plain number; None otherwise."""
+def _plain_number(text: str) -> float | None:
+    """The finite number a word writes (lower case), remembered; None when it is not one."""
+    value = _NUMBERS.get(text)
+    if value is None:
+        value = parse_number(text)
+        if value is None or not math.isfinite(value):
+            return None
+        if len(_NUMBERS) < _NUMBERS_MAX:
+            _NUMBERS[text] = value
+    return value
+
+
+def _numeric_params(pairs: list[str]) -> dict[str, float] | None:
+    """``key=value`` words (lower case) as a dictionary when every value is a plain number;
+    None otherwise."""
     params: dict[str, float] = {}
-    for word in rest.split()[:-1]:
+    for word in pairs:
         key, _, text = word.partition("=")
-        value = _NUMBERS.get(text)
+        value = _plain_number(text)
         if value is None:
-            value = parse_number(text)
-            if value is None or not math.isfinite(value):
-                return None
-            if len(_NUMBERS) < _NUMBERS_MAX:
-                _NUMBERS[text] = value
+            return None
         params[key] = value
     return params
 
@@ -100,13 +108,8 @@ class Frame:
 
     def value(self, f: Field, card: Card) -> float:
         if f[0] == "w":  # most values are plain numbers, and few distinct ones
-            known = _NUMBERS.get(f[1])
-            if known is not None:
-                return known
-            number = parse_number(f[1])
-            if number is not None and math.isfinite(number):
-                if len(_NUMBERS) < _NUMBERS_MAX:
-                    _NUMBERS[f[1]] = number
+            number = _plain_number(f[1])
+            if number is not None:
                 return number
         return field_value(f, card, self.scope)
 
@@ -292,7 +295,7 @@ class Flattener:
                 if params[k] is None:
                     found = shared.get(rest)
                     if found is None:
-                        found = _numeric_params(rest)
+                        found = _numeric_params(rest.split()[:-1])  # (the last word is '.')
                         if found is None:
                             return None
                         if len(shared) < _NUMBERS_MAX:
@@ -381,21 +384,9 @@ class Flattener:
         model = frame.model(words[5])
         if model is None:
             return None
-        params: dict[str, float] = {}
-        if len(words) > 6:
-            pairs = "=".join(words[6:]).split("=")  # every pair holds exactly one '='
-            texts = pairs[1::2]
-            values = list(map(_NUMBERS.get, texts))
-            if None in values:
-                for k, text in enumerate(texts):
-                    if values[k] is None:
-                        value = parse_number(text)
-                        if value is None or not math.isfinite(value):
-                            return None
-                        if len(_NUMBERS) < _NUMBERS_MAX:
-                            _NUMBERS[text] = value
-                        values[k] = value
-            params = dict(zip(pairs[0::2], values))
+        params = _numeric_params(words[6:])
+        if params is None:
+            return None
         node = frame.node
         nodes = (node(words[1]), node(words[2]), node(words[3]), node(words[4]))
         return Element(frame.prefix + words[0], "m", nodes, None, model, params, item.file, item.line)
@@ -407,15 +398,9 @@ class Flattener:
         for k, word in enumerate(words):
             if values[k] is not None:
                 continue
-            value = _NUMBERS.get(word)  # met earlier in this run
-            if value is not None:
-                values[k] = value
-                continue
-            value = parse_number(word)
-            if value is None or not math.isfinite(value):  # a parameter's name, or out of range
+            value = _plain_number(word)
+            if value is None:  # a parameter's name, or out of range
                 value = field_value(("w", word, 0), PlainValueCard(run, lo + k, word), frame.scope)
-            elif len(_NUMBERS) < _NUMBERS_MAX:
-                _NUMBERS[word] = value
             values[k] = value
 
     def _duplicate_in_run(self, run: PlainRun, lo: int, names: list[str]) -> None:

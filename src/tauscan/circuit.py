@@ -6,6 +6,7 @@ All values are floats in SI units; names are lower case and hierarchical
 
 from __future__ import annotations
 
+from array import array
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from itertools import chain, repeat
@@ -136,7 +137,8 @@ class PassiveTable:
     b: list[str] = field(default_factory=list)
     values: list[float] = field(default_factory=list)
     files: list[str] = field(default_factory=list)
-    lines: list[int] = field(default_factory=list)
+    #: machine integers, not a list: no object per row
+    lines: array = field(default_factory=lambda: array("q"))
 
     def __len__(self) -> int:
         return len(self.names)

@@ -18,8 +18,11 @@ import re
 import sys
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
+from array import array
 from itertools import accumulate, chain, compress, repeat
-from operator import add, itemgetter
+from operator import itemgetter
+
+import numpy as np
 
 from tauscan.errors import IncludeError, NetlistSyntaxError
 
@@ -120,9 +123,10 @@ class PlainColumns:
 
     __slots__ = ("kinds", "names", "a", "b", "values", "lines", "blocks", "ground_names")
 
-    def __init__(self, file: str, blocks: tuple[str, ...], counts: list[int], start: list[int]) -> None:
+    def __init__(self, blocks: tuple[str, ...], counts: list[int], start: list[int], row: list[int]) -> None:
         """``blocks``: the text of the plain lines, every line ending with a line feed;
-        ``counts[k]`` lines in block ``k``, the first of them line ``start[k]``."""
+        ``counts[k]`` lines in block ``k``, the first of them line ``start[k]`` and row
+        ``row[k]``."""
         text = "".join(blocks).lower()
         #: whether a node may be named as ground otherwise than "0" (see the flattener)
         self.ground_names = "gnd" in text
@@ -133,7 +137,10 @@ class PlainColumns:
         self.a: list[str] = words[1::4]
         self.b: list[str] = words[2::4]
         self.values: list[str] = words[3::4]
-        self.lines: list[int] = list(chain.from_iterable(map(range, start, map(add, start, counts))))
+        # line numbers: row i of block k is line start[k] + i - row[k] (machine integers)
+        numbers = np.arange(len(self.names), dtype=np.int64)
+        numbers += np.repeat(np.subtract(start[:-1], row[:-1], dtype=np.int64), counts)
+        self.lines = array("q", numbers.tobytes())
         self.blocks = blocks
 
 
@@ -398,7 +405,7 @@ class _PrePass:
         # start[k + 1] - 1 (the last matches, at the end of the text, have none)
         row = list(accumulate(counts, initial=0))
         start = list(accumulate(map((1).__add__, counts), initial=first))
-        columns = PlainColumns(self.file, blocks, counts, start)
+        columns = PlainColumns(blocks, counts, start, row)
         try:
             return self._matches(columns, blocks, devices, others, row, start)
         finally:

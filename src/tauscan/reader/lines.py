@@ -358,9 +358,12 @@ class _Stretch:
         self.row = row
         self.lo = row[lo]
         self.hi = row[k + 1] if k < len(devices) else row[k]
-        at = list(compress(range(lo, k), devices[lo:k]))
-        self.devices = list(zip(map(devices.__getitem__, at), map((-1).__add__, map(start.__getitem__, map((1).__add__, at))),
-                                map(row.__getitem__, map((1).__add__, at))))
+        matches = list(compress(range(lo, k), devices[lo:k]))  # those that end in a MOSFET line
+        after = list(map((1).__add__, matches))
+        texts = map(devices.__getitem__, matches)
+        numbers = map((-1).__add__, map(start.__getitem__, after))  # the line of match j: start[j + 1] - 1
+        rows = map(row.__getitem__, after)  # it stands before the next match's block
+        self.devices = list(zip(texts, numbers, rows))
 
 
 class _PrePass:

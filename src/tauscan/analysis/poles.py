@@ -28,7 +28,7 @@ from tauscan.ordering import SUPERNODES, fill_reducing_order
 #: Up to this many unknowns all poles are found with a dense eigen-solver.
 DENSE_LIMIT = 800
 #: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
-#: factorization; regula falsi then refines the bracket).
+#: factorization; Newton's method with the slope then refines the bracket).
 F3DB_STEP = 8.0
 #: |H(0)| below this fraction of the highest |H| means no DC path: the -3 dB point is then
 #: taken from the mid-band peak.
@@ -352,11 +352,15 @@ class Response:
         self.b, self.row = b.astype(complex), row
         self.ill_conditioned = False
         self.dense = g.shape[0] <= DENSE_LIMIT
-        #: H at frequencies already solved elsewhere (the probe choice), reused as they are
+        #: H at frequencies already solved (by the probe choice, or here), reused as they are
         self.known: dict[float, complex] = {}
+        #: d ln|H| / d ln f where a sparse point was solved here (one more solve with the
+        #: same factors: dH/ds = -e_row^T (G + sC)^-1 C x)
+        self.slopes: dict[float, float] = {}
         if self.dense:
             self._gd, self._cd = g.toarray(), c.toarray()
         else:
+            self._c = c.tocsr()
             self._solver = complex_solver(g, c, cache)
 
     def __call__(self, f: float) -> complex:
@@ -371,7 +375,16 @@ class Response:
                 if caught:
                     self.ill_conditioned = True
             else:
-                x = self._solver.solve(self._solver.factor(s), self.b)
+                factored = self._solver.factor(s)
+                x = self._solver.solve(factored, self.b)
+                h = complex(x[self.row])
+                if h != 0 and f > 0:
+                    dh = -complex(self._solver.solve(factored, self._c @ x)[self.row])
+                    slope = (s * dh / h).real
+                    if math.isfinite(slope):
+                        self.slopes[f] = slope
+                self.known[f] = h  # each sparse point is a factorization: never twice
+                return h
         except (np.linalg.LinAlgError, RuntimeError):
             # singular at this frequency (an undamped resonance, or a loop of reactances)
             self.ill_conditioned = True
@@ -387,7 +400,8 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
 
     Small circuits: a sweep over the whole pole band, then regula falsi on the first
     crossing.  Large ones (each point a sparse complex factorization): steps
-    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then regula falsi.
+    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then Newton's
+    method with the slope each point gives (:func:`_refine_sloped`).
     Returns the frequency (Hz, or None) and a note on how it was found.
     """
     h0 = resp.dc()
@@ -426,7 +440,7 @@ def _refine(resp: Response, target: float, fa: float, fb: float,
     known), by the Illinois variant of regula falsi on log|H| against log f: nearly straight
     on a roll-off, so it takes a few evaluations, and the bracket is kept throughout.
     Stops when the frequency is known to 1e-9 (cheap dense points) or 1e-4 (each point a
-    sparse factorization; below the four digits reported)."""
+    sparse factorization: the large-circuit search uses :func:`_refine_sloped`)."""
     log_target = math.log(target)
 
     def gap_of(v: float) -> float:
@@ -463,6 +477,68 @@ def _refine(resp: Response, target: float, fa: float, fb: float,
     return math.exp(x)
 
 
+def _refine_sloped(resp: Response, target: float, fa: float, fb: float, va: float, vb: float) -> float | None:
+    """The crossing of |H| = target in a bracket (|H| = ``va`` above it at ``fa``, ``vb``
+    below it at ``fb``) where every point costs a sparse factorization: Newton's method on
+    g = ln|H| - ln target against ln f, with the slope each point gives for one more solve
+    (:attr:`Response.slopes`), kept inside the bracket; a Newton step that would leave it,
+    or a point with no falling slope, gives way to the Illinois step of :func:`_refine`.
+    Stops when |g| < 1e-6 (ln f then known to about that, on a roll-off of order one)."""
+    log_target = math.log(target)
+
+    def gap_of(v: float) -> float:
+        return math.log(v) - log_target if v > 0 else -1e300
+
+    a, b = math.log(fa), math.log(fb)
+    ga, gb = gap_of(va), gap_of(vb)
+    if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
+        return None
+    if ga == 0:
+        return fa
+    if gb == 0:
+        return fb
+    tol = 1e-6
+    # the newest point and its slope: the end nearer the crossing to begin with
+    near_a = abs(ga) <= abs(gb)
+    x, gx, fx = (a, ga, fa) if near_a else (b, gb, fb)
+    slope = resp.slopes.get(fx)
+    last_side: bool | None = None
+    for _ in range(60):
+        step_ok = slope is not None and slope < 0
+        if step_ok:
+            candidate = x - gx / slope
+            step_ok = min(a, b) < candidate < max(a, b)
+        if not step_ok:
+            candidate = (a * gb - b * ga) / (gb - ga)
+            if not (min(a, b) < candidate < max(a, b)):
+                candidate = 0.5 * (a + b)
+        fx = math.exp(candidate)
+        gnew = gap_of(abs(resp(fx)))
+        if not math.isfinite(gnew):
+            return None
+        x = candidate
+        slope = resp.slopes.get(fx)
+        if abs(gnew) < tol:
+            return fx
+        # keep the bracket: the new point replaces the end on its side; when secant steps
+        # land on one side twice running, the other end's weight is halved (Illinois)
+        side = gnew > 0
+        if side:
+            a, ga = candidate, gnew
+        else:
+            b, gb = candidate, gnew
+        if not step_ok and side == last_side:
+            if side:
+                gb *= 0.5
+            else:
+                ga *= 0.5
+        last_side = side
+        gx = gnew
+        if abs(b - a) < tol:
+            return fx
+    return math.exp(x)
+
+
 def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float | None) -> tuple[float | None, str]:
     """Step up from below the dominant pole; the reference is |H(0)|, or the highest |H| met
     so far when the probe has (almost) no DC path from the source (AC coupling), as in the
@@ -494,7 +570,7 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
         if v_next < target <= value:
             note = ("mid-band peak/sqrt(2) (no DC path from the source to the probe), found by stepping up"
                     if mid_band else "|H(0)|/sqrt(2), found by stepping up from the dominant pole")
-            return _refine(resp, target, f, f_next, value, v_next), note
+            return _refine_sloped(resp, target, f, f_next, value, v_next), note
         # across a flat band (within 1 % over the step) stride eight times further: an
         # AC-coupled probe can lie decades above its coupling pole, and each point costs a
         # factorization; a wider bracket costs the refinement about one more point

@@ -180,6 +180,12 @@ def test_columns_hold_what_the_card_path_makes(tmp_path, monkeypatch, chunk):
      "zero resistance"),
     ("t\n.model n nmos\nR1 a b 1\nM1 d g s b n\nR2 c d 1\nM2 d g s b nope\n", 6, 12, NetlistSyntaxError,
      "model 'nope' is not defined"),
+    # a subcircuit's model card in error is met at the first MOSFET using it: after a plain
+    # row in error before that MOSFET, before one after it
+    ("t\n.subckt cell a\n.model n nmos (vto={nowhere})\nR1 a b 1\nR2 c d 0\nM1 d g s b n\n.ends\nX1 a cell\n",
+     5, 8, NetlistSyntaxError, "zero resistance"),
+    ("t\n.subckt cell a\n.model n nmos (vto={nowhere})\nR1 a b 1\nM1 d g s b n\nR2 c d 0\n.ends\nX1 a cell\n",
+     3, 21, ExpressionError, "undefined parameter 'nowhere'"),
 ])
 def test_errors_in_plain_lines_are_located(write, text, line, col, error, message):
     path = write(text)

@@ -242,10 +242,10 @@ class Flattener:
         anything is amiss (a MOSFET line needing the card path, a value in error, a name met
         before)."""
         base = len(self.circuit.passives) - run.lo  # rows before the run's first
-        elements = self._device_elements(frame, run, base)
-        if elements is None:
-            return False
-        try:
+        try:  # (a model card in error, or a value: the piecewise path says which comes first)
+            elements = self._device_elements(frame, run, base)
+            if elements is None:
+                return False
             rows = self._rows(frame, run, run.lo, run.hi)
         except TauscanError:
             return False

@@ -239,7 +239,10 @@ def test_mosfet_lines_with_the_same_parameters_share_them_and_nothing_changes_th
 def mixed_netlists(draw):
     """Netlists of plain R and C lines, plain MOSFET lines, continued lines, comments, blank
     lines and .control blocks in any order (names numbered so that none repeats)."""
-    out = ["mixed", ".model nch nmos (vto=0.4 kp=100u)"]
+    out = ["mixed", ".subckt pair a b", ".model nloc nmos (vto=0.4)", ".model ploc pmos (vto=-0.4)"]
+    for k in range(draw(st.integers(0, 4))):  # local models: made in the order first used
+        out.append(f"M{k} a b 0 0 {draw(st.sampled_from(['nloc', 'ploc']))} w=1u")
+    out += [".ends", "X1 n1 n2 pair", ".model nch nmos (vto=0.4 kp=100u)", ".model pch pmos (vto=-0.4)"]
     for k in range(draw(st.integers(1, 40))):
         kind = draw(st.sampled_from(["r", "c", "m", "m+", "r+", "comment", "blank", "control", "v"]))
         if kind in ("r", "r+"):
@@ -249,7 +252,7 @@ def mixed_netlists(draw):
         elif kind == "c":
             out.append(f"C{k} n{k % 5} {draw(st.sampled_from(['0', 'gnd', 'n1']))} {draw(st.sampled_from(['1p', '0.5f', '3e-15']))}")
         elif kind in ("m", "m+"):
-            out.append(f"M{k} n{k % 5} n1 0 0 nch w={draw(st.sampled_from(['1u', '2u']))}")
+            out.append(f"M{k} n{k % 5} n1 0 0 {draw(st.sampled_from(['nch', 'pch']))} w={draw(st.sampled_from(['1u', '2u']))}")
             if kind == "m+":
                 out.append("+ l=0.3u")
         elif kind == "comment":
@@ -282,5 +285,6 @@ def test_any_mix_of_lines_reads_as_the_card_path_reads_it(tmp_path_factory, text
         lines_mod.CHUNK_BYTES = saved
     b = read_netlist(str(carded))
     assert _all(a) == _all(b)
+    assert list(a.models) == list(b.models)
     assert a.nodes() == b.nodes()
     assert [w.replace("plain.sp", "x") for w in a.warnings] == [w.replace("carded.sp", "x") for w in b.warnings]

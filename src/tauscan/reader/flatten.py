@@ -282,8 +282,9 @@ class Flattener:
         text = " .\n".join(run.devices).lower() + " ."
         parts = list(map(_SEVEN, text.split("\n")))
         known = frame._models
-        for name in set(map(itemgetter(5), parts)).difference(known):
-            frame.model(name)
+        for name in dict.fromkeys(map(itemgetter(5), parts)):  # first met first: the models' order
+            if name not in known:
+                frame.model(name)
         models = list(map(known.__getitem__, map(itemgetter(5), parts)))
         if None in models:
             return None

@@ -229,9 +229,9 @@ def read_lines(path: str, shown: str | None = None, progress: Callable[[int, int
 
 
 def read_chunks(path: str, shown: str | None = None, progress: Callable[[int, int], None] | None = None) -> Iterator[str]:
-    """The text of one netlist file, a chunk of whole lines at a time, read and decoded a
-    chunk at a time (so that no more than one chunk of the file is ever held besides what the
-    caller keeps).  The file is opened at once, so that a missing file is an error of this call;
+    """The text of one netlist file, a chunk of whole lines at a time (each line ending in one
+    LF: :func:`normalized`), read and decoded a chunk at a time (so that no more than one
+    chunk of the file is ever held besides what the caller keeps).  The file is opened at once, so that a missing file is an error of this call;
     ``progress(done, total)`` is told the bytes read after each chunk."""
     shown = shown or path
     try:
@@ -267,7 +267,7 @@ def _chunked_text(handle, shown: str, size: int, progress) -> Iterator[str]:
                 raise IncludeError(f"file larger than {MAX_FILE_BYTES} bytes", shown)
             if not chunk:
                 if pending:
-                    yield decode(pending, shown, line)
+                    yield normalized(decode(pending, shown, line))
                 return
             data = pending + chunk if pending else chunk
             cut = data.rfind(b"\n") + 1
@@ -281,20 +281,23 @@ def _chunked_text(handle, shown: str, size: int, progress) -> Iterator[str]:
                 pending = data
                 continue
             pending = data[cut:]
-            text = decode(data[:cut] if pending else data, shown, line)
+            text = normalized(decode(data[:cut] if pending else data, shown, line))
             del data, chunk
-            line += _line_count(text)
+            line += text.count("\n")
             yield text
             del text
             if progress is not None:
                 progress(done, size)
 
 
-def _line_count(text: str) -> int:
-    """Lines in a text that ends with a line end (as :meth:`str.splitlines` counts them)."""
-    if not _other_line_ends(text):
-        return text.count("\n")
-    return len(text.splitlines())
+def normalized(text: str) -> str:
+    """The text with every line ending in one LF: the line ends :meth:`str.splitlines` knows
+    (CR LF, CR, form feed, ...) made LF, and one added after a last line without it."""
+    if _other_line_ends(text):
+        return "\n".join(text.splitlines()) + "\n"
+    if text and text[-1] != "\n":
+        return text + "\n"
+    return text
 
 
 def _split_comment(raw: str) -> tuple[str, str]:
@@ -328,14 +331,15 @@ def logical_lines(lines: str | list[str], file: str, *, has_title: bool) -> tupl
     (see :func:`logical_items`)."""
     if not isinstance(lines, str):
         lines = "".join(line + "\n" for line in lines)
-    return logical_items([lines], file, has_title=has_title)
+    return logical_items([normalized(lines)], file, has_title=has_title)
 
 
 def logical_items(chunks: Iterable[str], file: str, *, has_title: bool) -> tuple[str, list[Card | PlainRun]]:
     """Cards and runs of plain lines of one file in order, and its title (the first line)
     when ``has_title``.
 
-    ``chunks`` are the file's text, whole lines at a time (as :func:`read_chunks` gives them).
+    ``chunks`` are the file's text, whole lines at a time, every line ending in one LF (as
+    :func:`read_chunks` gives them; see :func:`normalized`).
     ``.end`` stops reading; ``.control`` ... ``.endc`` blocks are skipped whole.
     """
     state = _PrePass(file, has_title)
@@ -386,10 +390,8 @@ class _PrePass:
         followed by one line: a plain MOSFET line or any other.  Only the other lines that are
         not blank take a Python step each; the blocks, the MOSFET lines between them and
         their line numbers are taken in columns."""
-        if _other_line_ends(text):
-            text = "\n".join(text.splitlines()) + "\n"
-        elif text[-1:] != "\n":
-            text += "\n"
+        if not text:
+            return True
         first = self.number + 1  # the line number at ``pos``
         self.number += text.count("\n")
         pos = 0

@@ -236,6 +236,21 @@ def test_sparse_poles_do_not_depend_on_earlier_runs(write):
     assert [c.pole_share for c in first.capacitors] == [c.pole_share for c in again.capacitors]
 
 
+def count_factorizations(monkeypatch) -> list:
+    """The s of every complex factorization made from now on (the list fills as they run)."""
+    from tauscan.analysis import poles
+
+    calls = []
+    real = poles.ComplexSolver.factor
+
+    def counted(self, s):
+        calls.append(s)
+        return real(self, s)
+
+    monkeypatch.setattr(poles.ComplexSolver, "factor", counted)
+    return calls
+
+
 def test_stepping_search_on_a_response_that_levels_off(write, monkeypatch):
     """A high-pass (1 pF into 1 MOhm): |H| -> 1 above 159 kHz and never falls (closed form
     s RC / (1 + s RC)), so there is no upper -3 dB point.  The large-circuit search must say
@@ -245,14 +260,7 @@ def test_stepping_search_on_a_response_that_levels_off(write, monkeypatch):
     from tauscan.analysis import poles
 
     monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
-    calls = []
-    real = poles.ComplexSolver.factor
-
-    def counted(self, s):
-        calls.append(s)
-        return real(self, s)
-
-    monkeypatch.setattr(poles.ComplexSolver, "factor", counted)
+    calls = count_factorizations(monkeypatch)
     text = "high-pass\nVin in 0 dc 0 ac 1\nC1 in out 1p\nR1 out 0 1meg\nRleak in out 1e15\n"
     result = api.scan(write(text), probe="out", settings=AnalysisSettings(dense_limit=0))
     assert result.f3db_hz is None and "no -3 dB point" in result.f3db_note
@@ -270,14 +278,7 @@ def test_large_circuit_search_uses_the_slope_and_meets_scipy_signal(write, monke
     n = 6
     sys = ladder_state_space(n)
     monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
-    calls = []
-    real = poles.ComplexSolver.factor
-
-    def counted(self, s):
-        calls.append(s)
-        return real(self, s)
-
-    monkeypatch.setattr(poles.ComplexSolver, "factor", counted)
+    calls = count_factorizations(monkeypatch)
     seen = {}
     real_call = poles.Response.__call__
 

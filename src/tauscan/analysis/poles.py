@@ -434,6 +434,28 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     return None, "no -3 dB point within the searched band"
 
 
+def _gap(target: float):
+    """g(|H|) = ln|H| - ln target (a very negative number for |H| = 0)."""
+    log_target = math.log(target)
+
+    def gap_of(v: float) -> float:
+        return math.log(v) - log_target if v > 0 else -1e300
+
+    return gap_of
+
+
+def _settled(fa: float, fb: float, ga: float, gb: float) -> tuple[bool, float | None]:
+    """Whether a bracket's ends already answer: (True, None) when they do not bracket a
+    crossing, (True, that end) when one lies on it, else (False, None)."""
+    if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
+        return True, None
+    if ga == 0:
+        return True, fa
+    if gb == 0:
+        return True, fb
+    return False, None
+
+
 def _refine(resp: Response, target: float, fa: float, fb: float,
             va: float | None = None, vb: float | None = None) -> float | None:
     """The crossing of |H| = target between a bracket (``va``, ``vb``: |H| there, when
@@ -441,20 +463,13 @@ def _refine(resp: Response, target: float, fa: float, fb: float,
     on a roll-off, so it takes a few evaluations, and the bracket is kept throughout.
     Stops when the frequency is known to 1e-9 (cheap dense points) or 1e-4 (each point a
     sparse factorization: the large-circuit search uses :func:`_refine_sloped`)."""
-    log_target = math.log(target)
-
-    def gap_of(v: float) -> float:
-        return math.log(v) - log_target if v > 0 else -1e300
-
+    gap_of = _gap(target)
     a, b = math.log(fa), math.log(fb)
     ga = gap_of(abs(resp(fa)) if va is None else va)
     gb = gap_of(abs(resp(fb)) if vb is None else vb)
-    if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
-        return None
-    if ga == 0:
-        return fa
-    if gb == 0:
-        return fb
+    settled, answer = _settled(fa, fb, ga, gb)
+    if settled:
+        return answer
     # log|H| falls about as fast as log f near the crossing: the same tolerance serves both
     tol = 1e-9 if resp.dense else 1e-4
     x = b
@@ -484,19 +499,12 @@ def _refine_sloped(resp: Response, target: float, fa: float, fb: float, va: floa
     (:attr:`Response.slopes`), kept inside the bracket; a Newton step that would leave it,
     or a point with no falling slope, gives way to the Illinois step of :func:`_refine`.
     Stops when |g| < 1e-6 (ln f then known to about that, on a roll-off of order one)."""
-    log_target = math.log(target)
-
-    def gap_of(v: float) -> float:
-        return math.log(v) - log_target if v > 0 else -1e300
-
+    gap_of = _gap(target)
     a, b = math.log(fa), math.log(fb)
     ga, gb = gap_of(va), gap_of(vb)
-    if not (math.isfinite(ga) and math.isfinite(gb)) or ga * gb > 0:
-        return None
-    if ga == 0:
-        return fa
-    if gb == 0:
-        return fb
+    settled, answer = _settled(fa, fb, ga, gb)
+    if settled:
+        return answer
     tol = 1e-6
     # the newest point and its slope: the end nearer the crossing to begin with
     near_a = abs(ga) <= abs(gb)

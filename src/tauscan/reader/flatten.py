@@ -86,10 +86,11 @@ class Frame:
         self._nodes[raw] = mapped
         return mapped
 
-    def nodes(self, raws: list[str]) -> list[str]:
-        """:meth:`node` of every name of a column (lower case already)."""
+    def nodes(self, raws: list[str], ground_names: bool = True) -> list[str]:
+        """:meth:`node` of every name of a column (lower case already); ``ground_names``: whether
+        a name of ground other than "0" may be among them."""
         if self.parent is None:  # the top level: only the names of ground change
-            return list(map(_GROUND_OF.get, raws, raws))
+            return list(map(_GROUND_OF.get, raws, raws)) if ground_names else raws
         known = self._nodes
         for raw in set(raws).difference(known):
             self.node(raw)
@@ -249,11 +250,12 @@ class Flattener:
             rows = self._rows(frame, run, run.lo, run.hi)
         except TauscanError:
             return False
+        row_names = rows[3]
         names = self.names
         before = len(names)
-        names.update(rows[3])
+        names.update(row_names)
         names.update(map(attrgetter("name"), elements))
-        if len(names) != before + len(rows[3]) + len(elements):
+        if len(names) != before + len(row_names) + len(elements):
             self._rebuild_names()
             return False
         self._commit_rows(run, *rows, checked=True)
@@ -302,10 +304,8 @@ class Flattener:
                         if len(shared) < _NUMBERS_MAX:
                             shared[rest] = found
                     params[k] = found
-        if frame.parent is None and "gnd" not in text:  # the names as written
-            nodes = list(map(itemgetter(1, 2, 3, 4), parts))
-        else:
-            nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), parts))) for k in (1, 2, 3, 4))))
+        ground_names = "gnd" in text
+        nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), parts)), ground_names) for k in (1, 2, 3, 4))))
         names = list(map(itemgetter(0), parts))
         if frame.prefix:
             names = list(map(frame.prefix.__add__, names))
@@ -353,12 +353,8 @@ class Flattener:
         table = self.circuit.passives
         table.kinds += kinds
         table.names += names
-        if frame.parent is None and not columns.ground_names:  # the names as written
-            table.a += columns.a[lo:hi]
-            table.b += columns.b[lo:hi]
-        else:
-            table.a += frame.nodes(columns.a[lo:hi])
-            table.b += frame.nodes(columns.b[lo:hi])
+        table.a += frame.nodes(columns.a[lo:hi], columns.ground_names)
+        table.b += frame.nodes(columns.b[lo:hi], columns.ground_names)
         table.values += values
         table.files += repeat(run.file, count)
         table.lines += columns.lines[lo:hi]

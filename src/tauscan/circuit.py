@@ -204,14 +204,30 @@ class Circuit:
         """Every element in order, as objects (see :class:`ElementView`)."""
         return ElementView(self)
 
+    def find(self, name: str) -> Element | None:
+        """The element of that (lower-case, hierarchical) name, or None."""
+        index = self._index()
+        k = index.get(name)
+        if k is None:
+            return None
+        return self.general[k] if k >= 0 else self.passives.element(-k - 1)
+
     def element(self, name: str) -> Element:
-        for element in self.general:
-            if element.name == name:
-                return element
-        try:
-            return self.passives.element(self.passives.names.index(name))
-        except ValueError:
-            raise KeyError(name) from None
+        """The element of that name (``KeyError`` when there is none)."""
+        found = self.find(name)
+        if found is None:
+            raise KeyError(name)
+        return found
+
+    def _index(self) -> dict[str, int]:
+        """Name -> position in :attr:`general` (k >= 0) or table row r (as -r - 1), made on
+        the first look-up, once the reader is done with the circuit."""
+        index = self.__dict__.get("_by_name")
+        if index is None or len(index) != len(self.general) + len(self.passives):
+            index = {name: -k - 1 for k, name in enumerate(self.passives.names)}
+            index.update((e.name, k) for k, e in enumerate(self.general))
+            self.__dict__["_by_name"] = index
+        return index
 
     def nodes(self) -> list[str]:
         """Every node name, ground first, then in order of first appearance."""

@@ -13,7 +13,7 @@ import sys
 from collections.abc import Sequence
 
 from tauscan import __version__
-from tauscan.errors import SettingsError, TauscanError
+from tauscan.errors import SelectionError, SettingsError, TauscanError
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -92,6 +92,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return run(argv)
     except TauscanError as exc:
+        if isinstance(exc, SelectionError):
+            exc = exc.for_command_line()
         print(exc.render(), file=sys.stderr)
         return EXIT_ERROR
     except KeyboardInterrupt:

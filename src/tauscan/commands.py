@@ -3,8 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import os
 from collections.abc import Callable
+
+
+#: Points of the magnitude sweep drawn by ``--plot``.
+PLOT_POINTS = 200
 
 
 def add_subcommands(sub, add_common: Callable[..., None]) -> None:
@@ -134,6 +139,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
                                         min_bandwidth=floor, fail_on=getattr(args, "fail_on", None),
                                         corner=corner.name if corner else None,
                                         lib_section=corner.lib if corner else None))
+    if getattr(args, "plot", None) and requests:  # the plot draws the first run's transfer
+        requests[0] = dataclasses.replace(requests[0], curve_points=PLOT_POINTS)
     return requests
 
 

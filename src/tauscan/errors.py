@@ -96,3 +96,22 @@ class ConvergenceError(CircuitError):
 
 class SettingsError(TauscanError):
     """A bad command-line option, configuration file or operating-point file."""
+
+
+class SelectionError(SettingsError):
+    """A probe node or source named by the caller that the circuit does not offer.
+
+    The message names the role in plain words (``probe 'out': ...``); the command line
+    words it with its option (:meth:`for_command_line`), so API users never see CLI flags.
+    """
+
+    def __init__(self, role: str, name: str, reason: str) -> None:
+        super().__init__(f"{role} {name!r}: {reason}")
+        self.role, self.name, self.reason = role, name, reason
+
+    def __reduce__(self):
+        return (type(self), (self.role, self.name, self.reason))
+
+    def for_command_line(self) -> SettingsError:
+        """The same error worded with the command-line option (``--probe 'out': ...``)."""
+        return SettingsError(f"--{self.role} {self.name!r}: {self.reason}")

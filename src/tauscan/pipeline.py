@@ -3,17 +3,20 @@ analyze -> lint.  Each stage takes the previous stage's objects and returns its 
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field
+
+import numpy as np
 
 from tauscan.analysis import AnalysisSettings, analyze_network
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
 from tauscan.gcpause import paused_gc
 from tauscan.lint import settings as lint_settings
-from tauscan.lint.gate import LintResult, run_rules, signal_nodes
+from tauscan.lint.gate import LintResult, run_rules
 from tauscan.linear import linearize
 from tauscan.op import OperatingPoint, operating_point
 from tauscan.reader import read_netlist
@@ -31,35 +34,31 @@ class ScanRequest:
     min_bandwidth: float | None = None
     fail_on: str | None = None
     response: bool = True
+    #: points of a source-to-probe magnitude sweep to keep with the result (0: none; plots)
+    curve_points: int = 0
     corner: str | None = None  # name of the process/voltage/temperature corner, if any
     lib_section: str | None = None  # the corner's .lib section, if it selects one
 
 
 @dataclass
 class ScanRun:
+    """Everything one scan produced, each stage's result as it returned it."""
+
     request: ScanRequest
     circuit: Circuit | None  # None when the run comes back from a worker
-    op: OperatingPoint | None
+    op: OperatingPoint | None  # likewise
     analysis: Analysis
     lint: LintResult
     settings: lint_settings.LintSettings
-    network: object = None  # the small-signal network (for plots)
     #: seconds per stage: read, operating point, linearize, analyze, lint
-    timings: dict = field(default_factory=dict)
+    timings: dict[str, float] = field(default_factory=dict)
 
-    def response_curve(self, points: int = 200):
-        """(freqs, |H|) from the source to the probe around the figures of interest, or (None, None)."""
-        from tauscan.analysis.poles import response_curve
-
-        a = self.analysis
-        ss = self.network
-        if ss is None or a.source is None or a.probe is None:
+    def response_curve(self) -> tuple[np.ndarray | None, np.ndarray | None]:
+        """(freqs in Hz, |H|) of the sweep the request asked for (``curve_points``), or (None, None)."""
+        if self.analysis.curve is None:
             return None, None
-        marks = [f for f in (a.octc_hz, a.dominant_pole_hz, a.f3db_hz) if f]
-        if not marks:
-            return None, None
-        b = ss.network.ac_vector(self.circuit.element(a.source))[1:]
-        return response_curve(ss.g, ss.c, b, ss.row(a.probe), min(marks) / 1e3, max(marks) * 1e3, points, cache=ss)
+        freqs, mags = self.analysis.curve
+        return np.asarray(freqs), np.asarray(mags)
 
 
 def _ignore(_done: int, _total: int) -> None:
@@ -96,13 +95,10 @@ def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
 
 def scan_in_worker(request: ScanRequest) -> ScanRun:
     """One scan in a worker process (no progress display).  Only what the reports read
-    travels back: the circuit, the operating point and the small-signal matrices stay
-    behind (pickling them cost more than the scan itself on a batch of 2e4-line netlists)."""
-    run = scan(request)
-    run.network = None
-    run.circuit = None
-    run.op = None
-    return run
+    travels back: the circuit and the operating point stay behind (pickling them cost more
+    than the scan itself on a batch of 2e4-line netlists); the analysis and lint results are
+    complete without them."""
+    return dataclasses.replace(scan(request), circuit=None, op=None)
 
 
 def scan(request: ScanRequest, progress=None) -> ScanRun:
@@ -121,9 +117,9 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
         ss = linearize(op)
     with timed.stage("analyze", "small-signal analysis"):
         analysis = analyze_network(ss, op, settings.probe, settings.source,
-                                   AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response))
+                                   AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response,
+                                                    curve_points=request.curve_points))
         analysis.warnings.extend(circuit.warnings)
     with timed.stage("lint", "lint rules"):
-        signal = signal_nodes(analysis, ss, op)
-        lint = run_rules(analysis, circuit, op, settings, settings.probe is not None, signal)
-    return ScanRun(request, circuit, op, analysis, lint, settings, ss, timed.seconds)
+        lint = run_rules(analysis, circuit, op, settings, settings.probe is not None)
+    return ScanRun(request, circuit, op, analysis, lint, settings, timed.seconds)

@@ -10,8 +10,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 from numpy.testing import assert_allclose
 
-from tauscan.analysis.poles import ComplexSolver
-from tauscan.op.solver import _OrderedLU
+from tauscan.analysis.systems import ComplexSolver, Factors
+from tauscan.factorization import OrderedLU
 
 
 def _grid(side: int, seed: int = 3):
@@ -42,12 +42,12 @@ def _fresh_fill(a) -> int:
 
 def test_newton_factorizations_keep_the_fill_of_the_first():
     g, _ = _grid(30)
-    lu = _OrderedLU()
+    lu = OrderedLU()
     lu.factor(g)
-    solve = lu.factor(g * 1.5)  # same pattern, new values: the ordering is reused
-    assert lu.last.L.nnz + lu.last.U.nnz <= 1.05 * _fresh_fill(g)
+    factors = lu.factor(g * 1.5)  # same pattern, new values: the ordering is reused
+    assert lu.last.lu.L.nnz + lu.last.lu.U.nnz <= 1.05 * _fresh_fill(g)
     b = np.arange(g.shape[0], dtype=float)
-    assert_allclose(solve(b), np.linalg.solve((g * 1.5).toarray(), b), rtol=1e-9)
+    assert_allclose(factors.solve(b), np.linalg.solve((g * 1.5).toarray(), b), rtol=1e-9)
 
 
 def test_complex_factorizations_keep_the_fill_of_a_fresh_ordering():
@@ -63,7 +63,6 @@ def test_complex_factorizations_keep_the_fill_of_a_fresh_ordering():
 def test_ac_grounds_taken_out_give_the_full_systems_node_voltages(write):
     """Stacked and driven voltage sources: the reduced solve must give the node voltages of
     the full MNA system (numpy.linalg.solve on the dense matrix), at several frequencies."""
-    from tauscan.analysis.poles import complex_solver
     from tauscan.linear import linearize
     from tauscan.op import solve_dc
     from tauscan.reader import read_netlist
@@ -72,7 +71,7 @@ def test_ac_grounds_taken_out_give_the_full_systems_node_voltages(write):
             "R2 x y 2k\nC2 x y 0.5p\nG1 y 0 x 0 1m\nR3 y a 5k\nC3 y 0 0.2p\nVf y z dc 0\nR4 z 0 10k\n")
     circuit = read_netlist(write(text))
     ss = linearize(solve_dc(circuit))
-    solver = complex_solver(ss.g, ss.c, ss)
+    solver = Factors(ss.g, ss.c, ss.ac_ground_tree()).complex
     assert {ss.network.nodes[r + 1] for r, _, _, _ in solver.grounded} == {"a", "b", "in"}
     b = ss.network.ac_vector(circuit.element("vin"))[1:].astype(complex)
     n = ss.n_nodes
@@ -87,7 +86,7 @@ def test_dense_rows_go_last_and_solves_stay_exact():
     """A grid with a 'supply' node joined to every node: the ordering must be a permutation
     with that node last, keep the fill of minimum degree on the grid alone, and solve
     exactly (numpy.linalg.solve on the dense matrix, both the matrix and its transpose)."""
-    from tauscan.ordering import PermutedLU, fill_reducing_order
+    from tauscan.factorization import PermutedLU, fill_reducing_order
 
     g, _ = _grid(30)
     n = g.shape[0]

@@ -203,12 +203,12 @@ def test_stepping_search_on_an_ac_coupled_probe(write, monkeypatch):
     |H| = |s R1 C1 / (1 + s R1 C1)| gm R2 / |1 + s R2 C2|, solved with scipy.optimize.brentq."""
     from scipy.optimize import brentq
 
-    from tauscan.analysis import poles
+    from tauscan.analysis import response as response_mod
 
     # a 1e15-ohm leak across C1 leaves a DC gain of 1e-12: too small to be the reference
     text = ("band-pass\nVin in 0 dc 0 ac 1\nC1 in a 1u\nRleak in a 1e15\nR1 a 0 1k\nG1 0 b a 0 1m\nR2 b 0 1k\n"
             "C2 b 0 1n\n")
-    monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
+    monkeypatch.setattr(response_mod, "DENSE_LIMIT", 0)
     result = api.scan(write(text), probe="b", settings=AnalysisSettings(dense_limit=0))
 
     def mag(f):
@@ -238,16 +238,16 @@ def test_sparse_poles_do_not_depend_on_earlier_runs(write):
 
 def count_factorizations(monkeypatch) -> list:
     """The s of every complex factorization made from now on (the list fills as they run)."""
-    from tauscan.analysis import poles
+    from tauscan.analysis import systems
 
     calls = []
-    real = poles.ComplexSolver.factor
+    real = systems.ComplexSolver.factor
 
     def counted(self, s):
         calls.append(s)
         return real(self, s)
 
-    monkeypatch.setattr(poles.ComplexSolver, "factor", counted)
+    monkeypatch.setattr(systems.ComplexSolver, "factor", counted)
     return calls
 
 
@@ -257,9 +257,9 @@ def test_stepping_search_on_a_response_that_levels_off(write, monkeypatch):
     so, striding across the flat band rather than stepping 8x at a time to 1e18 Hz.  (A flat
     stretch alone never ends the search: a DC-coupled probe can stay flat for nine decades and
     still roll off.)"""
-    from tauscan.analysis import poles
+    from tauscan.analysis import response as response_mod
 
-    monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
+    monkeypatch.setattr(response_mod, "DENSE_LIMIT", 0)
     calls = count_factorizations(monkeypatch)
     text = "high-pass\nVin in 0 dc 0 ac 1\nC1 in out 1p\nR1 out 0 1meg\nRleak in out 1e15\n"
     result = api.scan(write(text), probe="out", settings=AnalysisSettings(dense_limit=0))
@@ -273,21 +273,21 @@ def test_large_circuit_search_uses_the_slope_and_meets_scipy_signal(write, monke
     slope each point gives (one more solve, dH/ds = -e^T (G + sC)^-1 C x) matches a central
     difference of scipy.signal's |H|, and the search takes fewer factorizations than the
     slope-free regula falsi it replaced (counted on the same circuit)."""
-    from tauscan.analysis import poles
+    from tauscan.analysis import response as response_mod
 
     n = 6
     sys = ladder_state_space(n)
-    monkeypatch.setattr(poles, "DENSE_LIMIT", 0)
+    monkeypatch.setattr(response_mod, "DENSE_LIMIT", 0)
     calls = count_factorizations(monkeypatch)
     seen = {}
-    real_call = poles.Response.__call__
+    real_call = response_mod.Response.__call__
 
     def kept(self, f):
         value = real_call(self, f)
         seen["resp"] = self
         return value
 
-    monkeypatch.setattr(poles.Response, "__call__", kept)
+    monkeypatch.setattr(response_mod.Response, "__call__", kept)
     path = write(ladder(n))
     result = api.scan(path, probe=f"n{n}", settings=AnalysisSettings(dense_limit=0))
     assert "stepping" in result.f3db_note
@@ -302,7 +302,7 @@ def test_large_circuit_search_uses_the_slope_and_meets_scipy_signal(write, monke
         assert_allclose(slope, (math.log(hi) - math.log(lo)) / (2 * d), rtol=1e-5, atol=1e-9)
     # the same search with the slope-free refinement
     calls.clear()
-    monkeypatch.setattr(poles, "_refine_sloped", lambda resp, t, fa, fb, va, vb: poles._refine(resp, t, fa, fb, va, vb))
+    monkeypatch.setattr(response_mod, "_refine_sloped", lambda resp, t, fa, fb, va, vb: response_mod._refine(resp, t, fa, fb, va, vb))
     plain = api.scan(path, probe=f"n{n}", settings=AnalysisSettings(dense_limit=0))
     assert_allclose(plain.f3db_hz, minus3db(sys), rtol=1e-3)
     assert with_slope < len(calls)

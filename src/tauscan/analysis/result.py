@@ -6,6 +6,7 @@ Plain records with a JSON form and pandas views for notebooks and scripts.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 
@@ -55,9 +56,9 @@ class CapacitorResult(_Compact):
     line: int
     device: str | None = None
     comment: str = ""
-    waived: str | None = None
 
-    def to_json(self) -> dict:
+    def to_json(self, waived: str | None = None) -> dict:
+        """The JSON record; ``waived``: the reason of the waiver that applies (the lint stage's)."""
         return {
             "name": self.name,
             "node_in": self.node_in,
@@ -77,7 +78,7 @@ class CapacitorResult(_Compact):
             "tau_out_s": _finite(self.part_out_s),
             "file": self.file,
             "line": self.line,
-            "waived": self.waived,
+            "waived": waived,
         }
 
 
@@ -123,6 +124,10 @@ class Analysis:
     methods: dict[str, str] = field(default_factory=dict)
     bias_regions: dict[str, str] = field(default_factory=dict)
     floating: list[str] = field(default_factory=list)
+    #: nodes that respond to the source below the estimate (None: no source, or not known)
+    signal_nodes: frozenset[str] | None = None
+    #: (frequencies in Hz, |H|) from the source to the probe, when a sweep was asked for
+    curve: tuple[list[float], list[float]] | None = None
 
     @property
     def estimate_error(self) -> float | None:
@@ -144,18 +149,22 @@ class Analysis:
                 return n
         raise KeyError(name)
 
-    def capacitors_frame(self):
-        """The ranked capacitors as a pandas DataFrame (one row each, JSON field names)."""
+    def capacitors_frame(self, waived: Mapping[str, str] | None = None):
+        """The ranked capacitors as a pandas DataFrame (one row each, JSON field names);
+        ``waived``: capacitor name -> waiver reason (the lint stage's)."""
         import pandas as pd
 
-        return pd.DataFrame([c.to_json() for c in self.capacitors], columns=CAPACITOR_COLUMNS)
+        waived = waived or {}
+        return pd.DataFrame([c.to_json(waived.get(c.name)) for c in self.capacitors], columns=CAPACITOR_COLUMNS)
 
     def nodes_frame(self):
         import pandas as pd
 
         return pd.DataFrame([n.to_json() for n in self.nodes], columns=NODE_COLUMNS)
 
-    def to_json(self) -> dict:
+    def to_json(self, waived: Mapping[str, str] | None = None) -> dict:
+        """The JSON form; ``waived``: capacitor name -> waiver reason (the lint stage's)."""
+        waived = waived or {}
         return {
             "netlist": self.netlist,
             "source": self.source,
@@ -169,7 +178,7 @@ class Analysis:
                 "estimate_error": _finite(self.estimate_error),
                 "dc_gain": _finite(self.dc_gain),
             },
-            "capacitors": [c.to_json() for c in self.capacitors],
+            "capacitors": [c.to_json(waived.get(c.name)) for c in self.capacitors],
             "nodes": [n.to_json() for n in self.nodes],
             "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],
             "warnings": list(self.warnings),

@@ -22,14 +22,12 @@ Two exact methods:
 from __future__ import annotations
 
 import itertools
+from collections.abc import Callable
 
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
-from tauscan.circuit import GROUND
-from tauscan.errors import CircuitError
-from tauscan.ordering import SUPERNODES, PermutedLU, fill_reducing_order
+from tauscan.factorization import PermutedLU, fill_reducing_order, splu
 
 #: Above this many distinct columns the selected inversion is used when it applies.
 SELECTED_MIN_COLUMNS = 2000
@@ -43,27 +41,26 @@ class _NotClosed(Exception):
     """The stored pattern of the factors is not closed under the recurrences."""
 
 
-def factor(matrix: sp.csc_matrix, what: str = "G") -> PermutedLU:
-    """Sparse LU of a circuit matrix.  Minimum-degree ordering on G + G^T, dense rows last
-    (:func:`~tauscan.ordering.fill_reducing_order`), with diagonal pivots preferred: circuit
-    matrices are nearly symmetric in structure, and the default column ordering can fill
-    badly (seen here: 33 s against 0.75 s on 10^5 nodes)."""
-    q = fill_reducing_order(matrix)
-    try:
-        lu = spla.splu(matrix.tocsc()[q][:, q].tocsc(), permc_spec="NATURAL", diag_pivot_thresh=0.01,
-                       options={"SymmetricMode": True}, **SUPERNODES)
-    except RuntimeError as exc:
-        raise CircuitError(f"the small-signal matrix {what} is singular ({exc}); a node without any path?") from None
-    return PermutedLU(lu, q)
+def by_columns(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray, lu: PermutedLU) -> np.ndarray:
+    """Z[rows[k], cols[k]] by batched column solves with the factors ``lu`` of ``g``.
 
+    Parameters
+    ----------
+    g : sparse (n, n)
+        The MNA conductance matrix G (ground dropped).
+    rows, cols : int arrays
+        MNA rows of the wanted entries; -1 (ground) gives 0.
+    lu : PermutedLU
+        G's factors (made once per analysis).
 
-def by_columns(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray, lu=None) -> np.ndarray:
-    """Z[rows[k], cols[k]] by batched column solves; rows/cols of -1 (ground) give 0."""
+    Returns
+    -------
+    ndarray of float, in ohms for node rows.
+    """
     out = np.zeros(len(rows))
     valid = (rows >= 0) & (cols >= 0)
     if not valid.any():
         return out
-    lu = lu or factor(g)
     n = g.shape[0]
     wanted = np.unique(cols[valid])
     batch = max(1, min(512, BATCH_ENTRIES // max(n, 1)))
@@ -106,7 +103,7 @@ def selected(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray) -> np.ndarray
     a = a[q][:, q].tocsc()
     r, c = at[r], at[c]
     try:
-        lu = spla.splu(a, permc_spec="NATURAL", diag_pivot_thresh=0.0, options={"SymmetricMode": True}, **SUPERNODES)
+        lu = splu(a, pivot_threshold=0.0)
     except RuntimeError:
         raise _NotClosed() from None
     if not np.array_equal(lu.perm_r, lu.perm_c):
@@ -368,8 +365,13 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
     return nodal, mapped[1:]
 
 
-def z_entries(ss, rows: np.ndarray, cols: np.ndarray, method: str = "auto") -> tuple[np.ndarray, str]:
-    """Z[rows[k], cols[k]] for MNA node rows (-1 = ground), and the method used."""
+def z_entries(ss, rows: np.ndarray, cols: np.ndarray, method: str, lu: Callable[[], PermutedLU]) -> tuple[np.ndarray, str]:
+    """Z[rows[k], cols[k]] for MNA node rows (-1 = ground), and the method used.
+
+    ``method``: "auto", "columns" or "selected"; ``lu`` gives G's factors when the column
+    method needs them (G is factored once per analysis, and not at all for the selected
+    inversion of a nodal matrix when nothing else needs it).
+    """
     rows = np.asarray(rows, dtype=np.int64)
     cols = np.asarray(cols, dtype=np.int64)
     n_cols = len(np.unique(cols[cols >= 0]))
@@ -385,7 +387,7 @@ def z_entries(ss, rows: np.ndarray, cols: np.ndarray, method: str = "auto") -> t
                 return selected(nodal, r, c), "selected"
             except _NotClosed:
                 pass
-    return by_columns(ss.g, rows, cols), "columns"
+    return by_columns(ss.g, rows, cols, lu()), "columns"
 
 
-__all__ = ["z_entries", "by_columns", "selected", "factor", "GROUND"]
+__all__ = ["z_entries", "by_columns", "selected"]

@@ -42,8 +42,6 @@ class SmallSignalNetwork:
     capacitors: list[CapacitorRecord]
     ac_ground: set[str]
     gmin: float
-    #: (source name, {frequency: solution}) of AC solves already made (the probe choice)
-    solved_responses: tuple = (None, {})
 
     @property
     def n_nodes(self) -> int:

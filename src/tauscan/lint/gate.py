@@ -4,23 +4,27 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-import numpy as np
-
+from tauscan.analysis.result import Analysis
+from tauscan.circuit import Circuit
 from tauscan.lint import waivers as waiver_mod
 from tauscan.lint.findings import Finding, severity_rank
 from tauscan.lint.rules import RULES
 from tauscan.lint.settings import LintSettings
+from tauscan.op.result import OperatingPoint
 
 
-@dataclass
+@dataclass(frozen=True)
 class LintContext:
-    analysis: object
-    circuit: object
-    op: object
+    """What a rule reads: the analysis, the circuit and operating point it came from, the
+    settings and the waivers in force."""
+
+    analysis: Analysis
+    circuit: Circuit
+    op: OperatingPoint
     settings: LintSettings
-    waivers: dict
+    waivers: dict[str, waiver_mod.Waiver]
     probe_given: bool
-    signal_nodes: set | None = None
+    signal_nodes: frozenset[str] | None = None
 
     def level(self, rule: str) -> str:
         return self.settings.severity.get(rule, RULES[rule].severity)
@@ -34,40 +38,19 @@ class LintContext:
 @dataclass
 class LintResult:
     findings: list[Finding]
-    waivers: list = field(default_factory=list)
+    waivers: list[waiver_mod.Waiver] = field(default_factory=list)
+
+    @property
+    def waived(self) -> dict[str, str]:
+        """Capacitor name -> the reason of the waiver that applies to it."""
+        return {w.capacitor: w.reason for w in self.waivers}
 
 
-def signal_nodes(analysis, ss, op) -> set | None:
-    """Nodes that respond to the AC source at a frequency below the estimate (a tenth of it)."""
-    if analysis.source is None:
-        return None
-    from tauscan.analysis.poles import complex_solver
-
-    src = ss.circuit.element(analysis.source)
-    b = ss.network.ac_vector(src)[1:]
-    f = (analysis.octc_hz or 1.0) / 10
-    name, solved = getattr(ss, "solved_responses", (None, {}))
-    x = solved.get(f) if name == src.name else None  # the probe choice solved there already
-    if x is None:
-        solver = complex_solver(ss.g, ss.c, ss)
-        try:
-            x = solver.solve(solver.factor(2j * np.pi * f), b.astype(complex))
-        except RuntimeError:  # singular at this frequency: treat every device as on the signal path
-            return None
-    mags = np.abs(x[: ss.n_nodes])
-    top = mags.max(initial=0.0)
-    if top == 0:
-        return set()
-    names = ss.network.nodes
-    return {names[i + 1] for i in np.flatnonzero(mags > 1e-3 * top)}
-
-
-def run_rules(analysis, circuit, op, settings: LintSettings, probe_given: bool, signal: set | None) -> LintResult:
+def run_rules(analysis: Analysis, circuit: Circuit, op: OperatingPoint, settings: LintSettings,
+              probe_given: bool) -> LintResult:
+    """Every rule over one analysis; the analysis is only read."""
     used = waiver_mod.resolve(analysis, circuit, settings.waive, settings.origin)
-    for cap in analysis.capacitors:
-        if cap.name in used:
-            cap.waived = used[cap.name].reason
-    ctx = LintContext(analysis, circuit, op, settings, used, probe_given, signal)
+    ctx = LintContext(analysis, circuit, op, settings, used, probe_given, analysis.signal_nodes)
     findings: list[Finding] = []
     for rule in RULES.values():
         findings.extend(rule.check(ctx))

@@ -16,7 +16,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from tauscan.circuit import Circuit
 from tauscan.devices.bipolar import BjtGroup
@@ -26,7 +25,7 @@ from tauscan.errors import CircuitError, ConvergenceError
 from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
 from tauscan.op.result import OperatingPoint
-from tauscan.ordering import SUPERNODES, fill_reducing_order
+from tauscan.factorization import OrderedLU
 
 #: Newton steps taken after convergence to polish the solution (see DCSolver._polish).
 POLISH_STEPS = 2
@@ -57,34 +56,6 @@ class SolverSettings:
         if isinstance(options.get("gmin"), float):
             values["gmin"] = options["gmin"]
         return cls(**values)
-
-
-class _OrderedLU:
-    """Sparse LU for a sequence of matrices with one pattern (the Newton Jacobians).
-
-    The first factorization picks a minimum-degree ordering of A + A^T, dense rows last
-    (:func:`tauscan.ordering.fill_reducing_order`), with diagonal pivots preferred (circuit
-    matrices are nearly symmetric in structure; SuperLU's default column ordering filled badly
-    on large chains: 22 s against 5 s for the operating point at 2e5 lines); later ones reuse
-    that ordering, so the ordering is computed once.
-    """
-
-    def __init__(self) -> None:
-        self.perm: np.ndarray | None = None
-        self.inverse: np.ndarray | None = None
-        self.last = None  # the latest factorization (for inspection)
-
-    def factor(self, matrix):
-        matrix = matrix.tocsc()
-        if self.perm is None or len(self.perm) != matrix.shape[0]:
-            self.perm = fill_reducing_order(matrix)
-            self.inverse = np.argsort(self.perm)
-        permuted = matrix[self.perm][:, self.perm].tocsc()
-        lu = spla.splu(permuted, permc_spec="NATURAL", diag_pivot_thresh=0.01, options={"SymmetricMode": True},
-                       **SUPERNODES)
-        self.last = lu
-        perm, inverse = self.perm, self.inverse
-        return lambda b: lu.solve(b[perm])[inverse]
 
 
 class _NotConverged(Exception):
@@ -129,7 +100,7 @@ class DCSolver:
         self.lin_abs = abs(self.lin)
         self.b = b
         self.n_node_rows = net.n_nodes - 1
-        self._lu = _OrderedLU()
+        self._lu = OrderedLU()
 
     # -- assembly ----------------------------------------------------------------------
     def _devices(self, x: np.ndarray, states: list, limit: bool):
@@ -170,7 +141,7 @@ class DCSolver:
             a = (self.lin + jdev + shunt).tocsc()
             rhs = scale * self.b[1:] - ieq[1:]
             try:
-                xr = self._lu.factor(a)(rhs)
+                xr = self._lu.factor(a).solve(rhs)
             except RuntimeError:
                 raise self._singular(a) from None
             if not np.all(np.isfinite(xr)):
@@ -198,7 +169,7 @@ class DCSolver:
             jdev, ieq, _, new_states, _ = self._devices(x, states, limit=False)
             a = (self.lin + jdev + shunt).tocsc()
             try:
-                xr = self._lu.factor(a)(scale * self.b[1:] - ieq[1:])
+                xr = self._lu.factor(a).solve(scale * self.b[1:] - ieq[1:])
             except RuntimeError:  # singular at the converged point: keep it as it is
                 return x, states
             if not np.all(np.isfinite(xr)):

@@ -8,7 +8,7 @@ def render(runs: list) -> str:
 
     frames = []
     for run in runs:
-        frame = run.analysis.capacitors_frame()
+        frame = run.analysis.capacitors_frame(run.lint.waived)
         if len(runs) > 1:
             frame.insert(0, "netlist", run.request.netlist)
         frames.append(frame)

@@ -7,7 +7,7 @@ import json
 
 def scan_record(run) -> dict:
     a = run.analysis
-    data = a.to_json()
+    data = a.to_json(run.lint.waived)
     data["netlist"] = run.request.netlist
     data["corner"] = run.request.corner
     data["title"] = a.title

@@ -38,8 +38,9 @@ def render(runs: list, top: int | None = 20) -> str:
         out.append("")
         out.append(_row(["#", "capacitor", "input -> other", "C", "gain", "class", "Miller x", "R seen", "tau", "share", "pole share", "f without it", "f cascoded"]))
         out.append(_row(["---:", "---", "---", "---:", "---:", "---", "---:", "---:", "---:", "---:", "---:", "---:", "---:"]))
+        waived = run.lint.waived
         for k, c in enumerate(caps, start=1):
-            out.append(_row([k, f"`{c.name}`" + (" (waived)" if c.waived else ""), f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain), c.klass,
+            out.append(_row([k, f"`{c.name}`" + (" (waived)" if c.name in waived else ""), f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain), c.klass,
                              _num(c.factor_in), eng(c.ohms, "ohm"), eng(c.tau_s, "s"), _pct(c.share), _pct(c.pole_share),
                              eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]))
         out.append("")

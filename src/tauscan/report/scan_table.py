@@ -63,8 +63,9 @@ def capacitor_table(run, top: int | None) -> Table:
                           ("tau", "right"), ("share", "right"), ("pole share", "right"), ("f w/o it", "right"),
                           ("f cascoded", "right")):
         t.add_column(name, justify=justify, no_wrap=name in ("capacitor", "class"))
+    waived = run.lint.waived
     for k, c in enumerate(caps, start=1):
-        name = c.name + (" (waived)" if c.waived else "")
+        name = c.name + (" (waived)" if c.name in waived else "")
         t.add_row(
             str(k), name, f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain),
             Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),

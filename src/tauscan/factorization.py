@@ -1,4 +1,5 @@
-"""A fill-reducing ordering for circuit matrices, shared by every sparse factorization.
+"""Sparse LU of circuit matrices: the one place that calls SuperLU, and the fill-reducing
+ordering every factorization uses.
 
 Minimum degree on the pattern of A + A^T (SuperLU's MMD_AT_PLUS_A) suits circuit matrices,
 which are nearly symmetric in structure, except for their few dense rows: a supply or bias
@@ -47,17 +48,68 @@ def fill_reducing_order(matrix: sp.spmatrix) -> np.ndarray:
     sub.data = np.ones(len(sub.data))
     # a diagonally dominant matrix of that pattern: its factorization only serves the ordering
     probe = (sub + sp.diags(np.asarray(sub.sum(axis=1)).ravel() + 1.0)).tocsc()
-    lu = spla.splu(probe, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True},
-                   **SUPERNODES)
+    lu = splu(probe, pivot_threshold=0.0, ordering="MMD_AT_PLUS_A")
     # Pr A Pc = L U puts column i at position perm_c[i]: the order is argsort(perm_c)
     return np.concatenate([keep[np.argsort(lu.perm_c)], last]).astype(np.int64)
 
 
+#: Diagonal pivots are taken unless smaller than this fraction of their column's largest
+#: entry: circuit matrices are nearly symmetric in structure, and an off-diagonal pivot
+#: breaks the symmetric ordering (common practice for circuit solvers).
+PIVOT_THRESHOLD = 0.01
+
+
+def splu(matrix: sp.spmatrix, pivot_threshold: float = PIVOT_THRESHOLD, ordering: str = "NATURAL"):
+    """SuperLU factors of ``matrix`` in symmetric mode with the circuit supernode settings.
+
+    Parameters
+    ----------
+    matrix : sparse (n, n), real or complex
+        Already in its fill-reducing order unless ``ordering`` asks SuperLU for one.
+    pivot_threshold : float
+        SuperLU's ``diag_pivot_thresh``: 0 takes every nonzero diagonal pivot as it comes.
+    ordering : str
+        SuperLU's ``permc_spec``; ``"NATURAL"`` keeps the order given.
+
+    Raises ``RuntimeError`` (SuperLU's) when the matrix is exactly singular.
+    """
+    return spla.splu(sp.csc_matrix(matrix), permc_spec=ordering, diag_pivot_thresh=pivot_threshold,
+                     options={"SymmetricMode": True}, **SUPERNODES)
+
+
 class PermutedLU:
     """A factorization of ``A[q][:, q]`` that solves with ``A`` itself (and its transpose)."""
+
+    __slots__ = ("lu", "q", "inverse")
 
     def __init__(self, lu, q: np.ndarray) -> None:
         self.lu, self.q, self.inverse = lu, q, np.argsort(q)
 
     def solve(self, b: np.ndarray, trans: str = "N") -> np.ndarray:
         return self.lu.solve(np.asarray(b)[self.q], trans=trans)[self.inverse]
+
+
+def factor(matrix: sp.spmatrix, order: np.ndarray | None = None,
+           pivot_threshold: float = PIVOT_THRESHOLD) -> PermutedLU:
+    """Sparse LU of a circuit matrix in a fill-reducing order (``order``, or one computed by
+    :func:`fill_reducing_order`), solving with the matrix itself.
+
+    Raises ``RuntimeError`` when the matrix is singular.
+    """
+    q = fill_reducing_order(matrix) if order is None else order
+    return PermutedLU(splu(sp.csc_matrix(matrix)[q][:, q], pivot_threshold), q)
+
+
+class OrderedLU:
+    """Sparse LU for a sequence of matrices with one pattern (the Newton Jacobians): the
+    ordering is computed for the first and reused by the later ones."""
+
+    def __init__(self) -> None:
+        self.perm: np.ndarray | None = None
+        self.last: PermutedLU | None = None  # the latest factorization (for inspection)
+
+    def factor(self, matrix: sp.spmatrix) -> PermutedLU:
+        if self.perm is None or len(self.perm) != matrix.shape[0]:
+            self.perm = fill_reducing_order(matrix)
+        self.last = factor(matrix, self.perm)
+        return self.last

@@ -44,11 +44,14 @@ class DeviceOP:
     file: str = ""
     line: int = 0
     overridden: set[str] = field(default_factory=set)
+    #: the registered model's family name (:mod:`tauscan.devices.registry`)
+    family: str = ""
 
     def small_signal(self) -> SmallSignal:
-        from tauscan.devices import stamps
+        """Linear primitives of this device, placed by its model."""
+        from tauscan.devices import registry
 
-        return stamps.build(self)
+        return registry.by_name(self.family).stamps(self)
 
 
 def series_stamps(params: dict, ext, nodes, parts: tuple[tuple[str, int], ...]):

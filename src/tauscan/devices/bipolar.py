@@ -23,7 +23,9 @@ import numpy as np
 
 from tauscan.circuit import GROUND, Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP, series_stamps
+from tauscan.devices import stamps as stamp_helpers
+from tauscan.devices.base import DeviceOP, SmallSignal, series_stamps
+from tauscan.devices.registry import DeviceModel, register
 from tauscan.network import Network, Triplets
 
 C, B, E = 0, 1, 2
@@ -198,7 +200,7 @@ class BjtGroup:
                        "rc_ext": names[self.ext[i, C]], "rc_int": c, "rb_ext": bx, "rb_int": b,
                        "re_ext": names[self.ext[i, E]], "re_int": em},
                 series={"rc": float(p["rc"][i]), "rb": float(p["rb"][i]), "re": float(p["re"][i])},
-                file=e.file, line=e.line,
+                file=e.file, line=e.line, family=MODEL.name,
             ))
         return out
 
@@ -218,3 +220,31 @@ def _region(vbe: float, vbc: float) -> str:
     if on_bc:
         return "reverse-active"
     return "cutoff"
+
+
+#: where each capacitance part sits: part -> (terminal, terminal)
+CAP_TERMINALS = {"cbe": ("b", "e"), "cbc": ("b", "c"), "cbx": ("bx", "c"), "ccs": ("c", "sub")}
+
+
+def stamps(dev: DeviceOP) -> SmallSignal:
+    """The hybrid-pi model: gpi, gmu, go and gm, the capacitances and the series resistances."""
+    out = SmallSignal()
+    n, v = dev.nodes, dev.values
+    c, b, e = n["c"], n["b"], n["e"]
+    out.conductances.append(("gpi", b, e, v.get("gpi", 0.0)))
+    out.conductances.append(("gmu", b, c, v.get("gmu", 0.0)))
+    out.conductances.append(("go", c, e, v.get("go", 0.0)))
+    out.vccs.append(("gm", c, e, b, e, v.get("gm", 0.0)))
+    stamp_helpers.capacitors(dev, out, CAP_TERMINALS)
+    stamp_helpers.series(dev, out)
+    return out
+
+
+MODEL = register(DeviceModel(
+    name="bjt", letter="q", model_types=frozenset(cards.BJT_TYPES), levels=None, terminals=("c", "b", "e", "sub"),
+    quantities=frozenset({"gm", "go", "gpi", "gmu", "id", "ic"}) | frozenset(CAP_TERMINALS),
+    capacitances=frozenset(CAP_TERMINALS),
+    regions=("forward-active", "saturation", "reverse-active", "cutoff"), poor_regions=frozenset({"saturation", "cutoff"}),
+    json_values=("gm", "gpi", "go", "gmu"), json_bias=("vbe", "vce"), json_caps=("cbe", "cbc", "ccs"),
+    table_bias=("vbe", "vce"), output_conductance="go", group=BjtGroup, stamps=stamps,
+))

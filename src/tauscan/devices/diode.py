@@ -11,7 +11,9 @@ import numpy as np
 
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP, series_stamps
+from tauscan.devices import stamps as stamp_helpers
+from tauscan.devices.base import DeviceOP, SmallSignal, series_stamps
+from tauscan.devices.registry import DeviceModel, register
 from tauscan.network import Network, Triplets
 
 A, K = 0, 1
@@ -103,6 +105,28 @@ class DiodeGroup:
                 name=e.name, type="diode", model=self.models[k], region=region, current=float(i[k]),
                 bias={"vd": float(vd[k])}, values={"gd": float(g[k])}, caps={"cj": float(cj[k])},
                 nodes={"a": a, "k": cath, "rs_ext": names[self.ext[k, A]], "rs_int": a},
-                series={"rs": float(p["rs"][k])}, file=e.file, line=e.line,
+                series={"rs": float(p["rs"][k])}, file=e.file, line=e.line, family=MODEL.name,
             ))
         return out
+
+
+#: where each capacitance part sits: part -> (terminal, terminal)
+CAP_TERMINALS = {"cj": ("a", "k")}
+
+
+def stamps(dev: DeviceOP) -> SmallSignal:
+    """gd, the junction capacitance and the series resistance."""
+    out = SmallSignal()
+    out.conductances.append(("gd", dev.nodes["a"], dev.nodes["k"], dev.values.get("gd", 0.0)))
+    stamp_helpers.capacitors(dev, out, CAP_TERMINALS)
+    stamp_helpers.series(dev, out)
+    return out
+
+
+MODEL = register(DeviceModel(
+    name="diode", letter="d", model_types=frozenset(cards.DIODE_TYPES), levels=None, terminals=("a", "k"),
+    quantities=frozenset({"gd", "cj", "id"}), capacitances=frozenset(CAP_TERMINALS),
+    regions=("forward", "reverse", "breakdown"), poor_regions=frozenset(),
+    json_values=("gd",), json_bias=("vd",), json_caps=("cj",),
+    table_bias=("vd",), output_conductance="gd", group=DiodeGroup, stamps=stamps,
+))

@@ -17,7 +17,9 @@ import numpy as np
 
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP, series_stamps
+from tauscan.devices.base import DeviceOP, SmallSignal, series_stamps
+from tauscan.devices import stamps as stamp_helpers
+from tauscan.devices.registry import DeviceModel, register
 from tauscan.errors import CircuitError
 from tauscan.network import Network, Triplets
 
@@ -268,7 +270,7 @@ class MosGroup:
                 nodes={"d": d if fwd else s, "s": s if fwd else d, "g": g, "b": b, "d_phys": d, "s_phys": s,
                        "rd_ext": names[self.ext[i, D]], "rd_int": d, "rs_ext": names[self.ext[i, S]], "rs_int": s},
                 series={"rd": float(p["rd"][i]), "rs": float(p["rs"][i])},
-                file=e.file, line=e.line,
+                file=e.file, line=e.line, family=MODEL.name,
             ))
         return out
 
@@ -299,3 +301,33 @@ def meyer(vgst: np.ndarray, vds: np.ndarray, cox: np.ndarray, phi: np.ndarray) -
     cgs = np.where(tri, 2.0 / 3.0 * cox * (1.0 - (vdsat - vds) ** 2 / denom), cgs)
     cgd = np.where(tri, 2.0 / 3.0 * cox * (1.0 - vdsat**2 / denom), cgd)
     return cgs, cgd, cgb
+
+
+#: where each capacitance part sits: part -> (terminal, terminal)
+CAP_TERMINALS = {"cgs": ("g", "s_phys"), "cgd": ("g", "d_phys"), "cgb": ("g", "b"), "cbd": ("b", "d_phys"),
+                 "cbs": ("b", "s_phys")}
+
+
+def stamps(dev: DeviceOP) -> SmallSignal:
+    """gm and gmb between the effective drain and source, gds, the bulk junctions'
+    conductances, the capacitances and the series resistances."""
+    out = SmallSignal()
+    n, v = dev.nodes, dev.values
+    d, g, s, b = n["d"], n["g"], n["s"], n["b"]
+    out.vccs.append(("gm", d, s, g, s, v.get("gm", 0.0)))
+    out.vccs.append(("gmb", d, s, b, s, v.get("gmb", 0.0)))
+    out.conductances.append(("gds", d, s, v.get("gds", 0.0)))
+    out.conductances.append(("gbd", b, n["d_phys"], v.get("gbd", 0.0)))
+    out.conductances.append(("gbs", b, n["s_phys"], v.get("gbs", 0.0)))
+    stamp_helpers.capacitors(dev, out, CAP_TERMINALS)
+    stamp_helpers.series(dev, out)
+    return out
+
+
+MODEL = register(DeviceModel(
+    name="mos", letter="m", model_types=frozenset(cards.MOS_TYPES), levels=None, terminals=("d", "g", "s", "b"),
+    quantities=frozenset({"gm", "gds", "gmb", "id"}) | frozenset(CAP_TERMINALS), capacitances=frozenset(CAP_TERMINALS),
+    regions=("saturation", "triode", "cutoff"), poor_regions=frozenset({"triode", "cutoff"}),
+    json_values=("gm", "gds", "gmb"), json_bias=("vov", "vgs", "vds"), json_caps=tuple(CAP_TERMINALS),
+    table_bias=("vov", "vds"), output_conductance="gds", group=MosGroup, stamps=stamps,
+))

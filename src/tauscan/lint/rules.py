@@ -8,6 +8,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from tauscan.devices import registry
 from tauscan.lint.findings import Finding
 from tauscan.units import eng
 
@@ -119,8 +120,7 @@ def floating_node(ctx) -> list[Finding]:
 def bias_region(ctx) -> list[Finding]:
     out = []
     for dev in ctx.op.devices:
-        mos = dev.type in ("nmos", "pmos")
-        bad = (mos and dev.region in ("triode", "cutoff")) or (dev.type in ("npn", "pnp") and dev.region in ("saturation", "cutoff"))
+        bad = dev.region in registry.by_name(dev.family).poor_regions
         if not bad or not ctx.carries_signal(dev):
             continue
         out.append(Finding(

@@ -25,18 +25,9 @@ import json
 import os
 from dataclasses import dataclass, field
 
-from tauscan.devices.stamps import family
+from tauscan.devices import registry
 from tauscan.errors import SettingsError
 from tauscan.units import parse_number
-
-#: quantities a file may give, per device family
-QUANTITIES = {
-    "mos": {"gm", "gds", "gmb", "cgs", "cgd", "cgb", "cbd", "cbs", "id"},
-    "bjt": {"gm", "go", "gpi", "gmu", "cbe", "cbc", "cbx", "ccs", "id", "ic"},
-    "diode": {"gd", "cj", "id"},
-}
-CAPACITANCES = {"cgs", "cgd", "cgb", "cbd", "cbs", "cbe", "cbc", "cbx", "ccs", "cj"}
-
 
 @dataclass
 class GivenValue:
@@ -146,7 +137,8 @@ def apply_device_values(given: GivenOP, devices: list) -> None:
         if device is None:
             line = next(iter(values.values())).line if values else 1
             raise SettingsError(f"device {name!r} is not a transistor or diode of the circuit", given.path, line)
-        allowed = QUANTITIES[family(device.type)]
+        model = registry.by_name(device.family)
+        allowed = model.quantities
         for quantity, item in values.items():
             if quantity not in allowed:
                 raise SettingsError(
@@ -154,7 +146,7 @@ def apply_device_values(given: GivenOP, devices: list) -> None:
                     given.path,
                     item.line,
                 )
-            if quantity in CAPACITANCES:
+            if quantity in model.capacitances:
                 device.caps[quantity] = item.value
             elif quantity in ("id", "ic"):
                 device.current = item.value

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tauscan.circuit import Circuit
+from tauscan.devices import registry
 from tauscan.devices.base import DeviceOP
 from tauscan.network import Network
 
@@ -54,17 +55,11 @@ class OperatingPoint:
                 "region": d.region,
                 "id": d.current,
             }
-            if d.type in ("nmos", "pmos"):
-                record.update(gm=d.values["gm"], gds=d.values["gds"], gmb=d.values["gmb"], vov=d.bias.get("vov"), vgs=d.bias.get("vgs"), vds=d.bias.get("vds"))
-                caps = {k: d.caps.get(k, 0.0) for k in ("cgs", "cgd", "cgb", "cbd", "cbs")}
-            elif d.type in ("npn", "pnp"):
-                record.update(gm=d.values["gm"], gpi=d.values["gpi"], go=d.values["go"], gmu=d.values["gmu"], vbe=d.bias.get("vbe"), vce=d.bias.get("vce"))
-                caps = {k: d.caps.get(k, 0.0) for k in ("cbe", "cbc", "ccs")}
-                if "cbx" in d.caps:
-                    caps["cbx"] = d.caps["cbx"]
-            else:
-                record.update(gd=d.values["gd"], vd=d.bias.get("vd"))
-                caps = {"cj": d.caps.get("cj", 0.0)}
+            model = registry.by_name(d.family)
+            record.update((k, d.values[k]) for k in model.json_values)
+            record.update((k, d.bias.get(k)) for k in model.json_bias)
+            caps = {k: d.caps.get(k, 0.0) for k in model.json_caps}
+            caps.update((k, v) for k, v in d.caps.items() if k not in caps)
             record["caps"] = caps
             if d.overridden:
                 record["given"] = sorted(d.overridden)

@@ -18,9 +18,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from tauscan.circuit import Circuit
-from tauscan.devices.bipolar import BjtGroup
-from tauscan.devices.diode import DiodeGroup
-from tauscan.devices.mosfet import MosGroup
+from tauscan.devices import registry
 from tauscan.errors import CircuitError, ConvergenceError
 from tauscan.network import GMIN, Network, Triplets
 from tauscan.op import topology
@@ -32,7 +30,9 @@ POLISH_STEPS = 2
 #: A device current above this (A) is reported as a sign of a broken bias network.
 MAX_DEVICE_CURRENT = 1.0
 
-GROUP_OF = {"m": MosGroup, "q": BjtGroup, "d": DiodeGroup}
+#: Built-in families first, in this order (it fixes the numbering of internal nodes); other
+#: registered models follow in the order their first device appears.
+FAMILY_ORDER = ("mos", "bjt", "diode")
 
 
 @dataclass(frozen=True)
@@ -75,13 +75,14 @@ class DCSolver:
         self.floating = topology.floating_nodes(circuit, net)
         topology.check_current_sources(circuit, self.floating)
         self.groups = []
-        by_kind: dict[str, list] = {}
+        letters = registry.letters()
+        by_model: dict[registry.DeviceModel, list] = {}
         for e in circuit.general:
-            if e.kind in GROUP_OF:
-                by_kind.setdefault(e.kind, []).append(e)
-        for kind in ("m", "q", "d"):
-            if kind in by_kind:
-                self.groups.append(GROUP_OF[kind](by_kind[kind], circuit, net, temp_c, self.warnings))
+            if e.kind in letters:
+                by_model.setdefault(registry.model_for(e, circuit), []).append(e)
+        order = sorted(by_model, key=lambda m: FAMILY_ORDER.index(m.name) if m.name in FAMILY_ORDER else len(FAMILY_ORDER))
+        for model in order:  # a stable sort: other models stay in the order first met
+            self.groups.append(model.group(by_model[model], circuit, net, temp_c, self.warnings))
         net.seal()
         self.net = net
         self.pinned = dict(pinned or {})

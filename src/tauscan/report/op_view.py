@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+from tauscan.devices import registry
 from tauscan.op.result import OperatingPoint
 from tauscan.report.console import text_console
 from tauscan.units import eng
@@ -30,15 +31,9 @@ def render_table(op: OperatingPoint, width: int = 120) -> str:
         for col in ("device", "type", "region", "current", "bias", "gm", "out. cond.", "capacitances"):
             dev.add_column(col, justify="right" if col in ("current", "gm", "out. cond.") else "left")
         for d in op.devices:
-            if d.type in ("nmos", "pmos"):
-                bias = f"vov={eng(d.bias['vov'], 'V')} vds={eng(d.bias['vds'], 'V')}"
-                out = eng(d.values["gds"], "S")
-            elif d.type in ("npn", "pnp"):
-                bias = f"vbe={eng(d.bias['vbe'], 'V')} vce={eng(d.bias['vce'], 'V')}"
-                out = eng(d.values["go"], "S")
-            else:
-                bias = f"vd={eng(d.bias['vd'], 'V')}"
-                out = eng(d.values["gd"], "S")
+            model = registry.by_name(d.family)
+            bias = " ".join(f"{k}={eng(d.bias[k], 'V')}" for k in model.table_bias)
+            out = eng(d.values[model.output_conductance], "S")
             caps = " ".join(f"{k}={eng(v, 'F')}" for k, v in d.caps.items() if v)
             mark = " *" if d.overridden else ""
             dev.add_row(d.name + mark, d.type, d.region, eng(d.current, "A"), bias, eng(d.values.get("gm"), "S"), out, caps)

@@ -23,7 +23,7 @@ from tauscan.circuit import Circuit, Element
 from tauscan.errors import CircuitError
 
 #: Conductance from every node to ground that keeps G solvable when a node has no
-#: DC path (METHOD: GMIN); such nodes are reported, never hidden.
+#: DC path (SPICE's GMIN, Nagel 1975); such nodes are reported, never hidden.
 GMIN = 1e-12
 
 BRANCH_KINDS = frozenset("vehl")

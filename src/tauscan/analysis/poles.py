@@ -1,5 +1,5 @@
 """Exact poles, the dominant pole's eigenvectors and sensitivities, and the -3 dB frequency
-(METHOD sections 4 and 5).
+(Rommes and Martins 2006 for the dominant pole and its sensitivities).
 
 Poles are s = -1/lambda for the nonzero eigenvalues lambda of G^-1 C: dense
 generalized eigenvalues for small circuits, shift-invert Arnoldi (ARPACK through

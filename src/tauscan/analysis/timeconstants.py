@@ -1,4 +1,4 @@
-"""Open-circuit time constants, Miller gains and their split between nodes (METHOD sections 2-3).
+"""Open-circuit time constants, Miller gains and their split between nodes.
 
 For a capacitor C between nodes a and b, with Z = G^-1 (capacitors open):
 
@@ -50,7 +50,8 @@ class CapacitorTable:
 
 def capacitor_table(farads: np.ndarray, a_ground: np.ndarray, b_ground: np.ndarray,
                     zaa: np.ndarray, zbb: np.ndarray, zab: np.ndarray, zba: np.ndarray) -> CapacitorTable:
-    """Everything METHOD section 2 defines, for every capacitor at once."""
+    """Resistance seen, time constant, gains both ways, input side, class and Miller factors
+    (Thornton et al. 1965; Miller 1920), for every capacitor at once."""
     zaa = np.where(a_ground, 0.0, zaa)
     zbb = np.where(b_ground, 0.0, zbb)
     zab = np.where(a_ground | b_ground, 0.0, zab)
@@ -94,7 +95,7 @@ def cascoded_tau(t: CapacitorTable) -> np.ndarray:
 
 def node_sums(names: list[str], a_index: np.ndarray, b_index: np.ndarray, t: CapacitorTable, n_nodes: int,
               excess: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per node: its time constant (the parts at it) and its Miller part (METHOD section 3)."""
+    """Per node: its time constant (the parts at it) and its Miller part (the exact split of the time constants above)."""
     tau = np.zeros(n_nodes)
     np.add.at(tau, a_index[a_index >= 0], t.part_a[a_index >= 0])
     np.add.at(tau, b_index[b_index >= 0], t.part_b[b_index >= 0])

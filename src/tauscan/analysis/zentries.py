@@ -1,4 +1,4 @@
-"""Entries of Z = G^-1 at capacitor terminals (METHOD section 1), never a dense inverse.
+"""Entries of Z = G^-1 at capacitor terminals, never a dense inverse.
 
 Two exact methods:
 

@@ -1,4 +1,4 @@
-"""The small-signal network (METHOD section 1): ``(G + sC) x = b``.
+"""The small-signal network of modified nodal analysis: ``(G + sC) x = b``.
 
 Every element is replaced by its linear model at the operating point;
 independent voltage sources become shorts (their MNA rows with zero value) and
@@ -84,7 +84,7 @@ def _source_tree(circuit: Circuit) -> list[tuple[str, str, Element]]:
 
 
 def ac_grounds(circuit: Circuit) -> set[str]:
-    """Nodes tied to ground through independent voltage sources only (METHOD section 1)."""
+    """Nodes tied to ground through independent voltage sources only (AC grounds)."""
     return {GROUND} | {node for node, _, _ in _source_tree(circuit)}
 
 

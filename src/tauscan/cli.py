@@ -55,20 +55,6 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def parse_params(items: Sequence[str]) -> dict[str, float]:
-    """``--param NAME=VALUE`` items -> {name: value}; values take SPICE suffixes."""
-    from tauscan.units import parse_number
-
-    out: dict[str, float] = {}
-    for item in items:
-        name, sep, text = item.partition("=")
-        value = parse_number(text.strip()) if sep else None
-        if not sep or not name.strip() or value is None:
-            raise SettingsError(f"--param expects NAME=VALUE with a number, not {item!r}")
-        out[name.strip().lower()] = value
-    return out
-
-
 def run(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)

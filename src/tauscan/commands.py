@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import os
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
+
+from tauscan.report import formats
 
 
 #: Points of the magnitude sweep drawn by ``--plot``.
@@ -27,7 +29,7 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     add_common(p, several=True)
     _add_bias_options(p)
     _add_analysis_options(p)
-    p.add_argument("--format", choices=["table", "json", "csv", "markdown", "sarif"], default="table")
+    p.add_argument("--format", choices=formats.choices("scan"), default="table")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
     p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
@@ -40,7 +42,7 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     _add_bias_options(p)
     _add_analysis_options(p)
     p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
-    p.add_argument("--format", choices=["table", "json", "sarif"], default="table")
+    p.add_argument("--format", choices=formats.choices("check"), default="table")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     _add_batch_options(p)
     p.set_defaults(handler=cmd_check)
@@ -79,8 +81,21 @@ def _add_bias_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--op", dest="op_file", metavar="FILE", help="operating point from a file (CSV or JSON; see README)")
 
 
+def parse_params(items: Sequence[str]) -> dict[str, float]:
+    """``--param NAME=VALUE`` items -> {name: value}; values take SPICE suffixes."""
+    from tauscan.errors import SettingsError
+    from tauscan.units import parse_assignment
+
+    out: dict[str, float] = {}
+    for item in items:
+        pair = parse_assignment(item)
+        if pair is None:
+            raise SettingsError(f"--param expects NAME=VALUE with a number, not {item!r}")
+        out[pair[0]] = pair[1]
+    return out
+
+
 def read_circuit(args: argparse.Namespace):
-    from tauscan.cli import parse_params
     from tauscan.reader import read_netlist
 
     return read_netlist(args.netlist, parse_params(args.param))
@@ -113,7 +128,6 @@ def cmd_op(args: argparse.Namespace) -> int:
 
 
 def _requests(args: argparse.Namespace, netlists: list[str]):
-    from tauscan.cli import parse_params
     from tauscan.lint.settings import bandwidth_value
     from tauscan.pipeline import ScanRequest
 
@@ -176,7 +190,7 @@ def cmd_scan(args: argparse.Namespace) -> int:
 
         scan_table.print_to_terminal(runs, top)
     else:
-        write_text(_render(fmt, runs, top), args.output, protect=tuple(args.netlist))
+        write_text(_render("scan", fmt, runs, top), args.output, protect=tuple(args.netlist))
     if args.plot:
         from tauscan.report import plot
 
@@ -185,33 +199,11 @@ def cmd_scan(args: argparse.Namespace) -> int:
     return 0
 
 
-def _render(fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
+def _render(command: str, fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
     from tauscan.gcpause import paused_gc
 
     with paused_gc():  # a record per capacitor: many objects, no cycles
-        return _render_now(fmt, runs, top, exit_code)
-
-
-def _render_now(fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
-    if fmt == "json":
-        from tauscan.report import scan_json
-
-        return scan_json.render(runs, exit_code)
-    if fmt == "csv":
-        from tauscan.report import scan_csv
-
-        return scan_csv.render(runs)
-    if fmt == "markdown":
-        from tauscan.report import scan_markdown
-
-        return scan_markdown.render(runs, top)
-    if fmt == "sarif":
-        from tauscan.report import sarif
-
-        return sarif.render(runs)
-    from tauscan.report import scan_table
-
-    return scan_table.render(runs, top)
+        return formats.render(command, fmt, runs, top, exit_code)
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -220,16 +212,10 @@ def cmd_check(args: argparse.Namespace) -> int:
 
     runs = _run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout)
     code = max(exit_code(r.lint.findings, r.settings.fail_on) for r in runs)
-    if args.format == "table":
+    if args.format == "table" and args.output is None:
         from tauscan.report import check_table
 
-        if args.output is None:
-            check_table.print_to_terminal(runs, code)
-            return code
-        text = check_table.render(runs, code)
-    elif args.format == "json":
-        text = _render("json", runs, None, code)
-    else:
-        text = _render("sarif", runs, None)
-    write_text(text, args.output, protect=tuple(args.netlist))
+        check_table.print_to_terminal(runs, code)
+        return code
+    write_text(_render("check", args.format, runs, None, code), args.output, protect=tuple(args.netlist))
     return code

@@ -11,7 +11,7 @@ import re
 from dataclasses import dataclass, field
 
 from tauscan.errors import SettingsError
-from tauscan.units import parse_number
+from tauscan.units import parse_assignment
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.-]*\Z")
 
@@ -40,10 +40,10 @@ def parse_corner(text: str) -> Corner:
         if eq and key.strip().lower() == "lib":
             lib = check_section(raw.strip(), f"--corner {name}")
             continue
-        value = parse_number(raw.strip()) if eq else None
-        if not eq or not key.strip() or value is None:
+        pair = parse_assignment(item)
+        if pair is None:
             raise SettingsError(f"--corner {name}: {item!r} is not PARAM=VALUE with a number")
-        key = key.strip().lower()
+        key, value = pair
         if key == "temp":
             temp = value
         else:

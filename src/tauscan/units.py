@@ -96,3 +96,16 @@ def eng(value: float | None, unit: str = "", digits: int = 3) -> str:
     if not unit:
         return f"{text}{prefix}"
     return f"{text} {prefix}{unit}"
+
+
+def parse_assignment(item: str) -> tuple[str, float] | None:
+    """``NAME=VALUE`` with a SPICE number -> (lower-case name, value); None when it is not one.
+
+    The one parser of the assignments that options and settings take (``--param``,
+    ``--corner``); each caller words its own error.
+    """
+    name, sep, text = item.partition("=")
+    value = parse_number(text.strip()) if sep else None
+    if not sep or not name.strip() or value is None:
+        return None
+    return name.strip().lower(), value

@@ -168,7 +168,7 @@ class BjtGroup:
         gmu = r["dib_dvbc"]
         go = -r["dic_dvbc"] - gmu
         gm = r["dic_dvbe"] - go
-        vsc = t * (net_voltage(x, self.sub) - x[self.nodes[:, C]])
+        vsc = t * (x[self.sub] - x[self.nodes[:, C]])
         cje = physics.depletion_capacitance(vbe, p["cje"], p["vje"], p["mje"], p["fc"])
         cjc = physics.depletion_capacitance(vbc, p["cjc"], p["vjc"], p["mjc"], p["fc"])
         ccs = physics.depletion_capacitance(vsc, p["cjs"], p["vjs"], p["mjs"], p["fc"])
@@ -203,10 +203,6 @@ class BjtGroup:
                 file=e.file, line=e.line, family=MODEL.name,
             ))
         return out
-
-
-def net_voltage(x: np.ndarray, index: np.ndarray) -> np.ndarray:
-    return x[index]
 
 
 def _region(vbe: float, vbc: float) -> str:

@@ -74,8 +74,3 @@ def field_value(f: Field, card: Card, scope: ParamScope) -> float:
             raise
         col = exc.col if isinstance(exc.col, int) else 0
         raise card.error(type(exc), exc.message, offset + col) from None
-
-
-def is_value(f: Field) -> bool:
-    """Whether a positional field can be a value (a number or an expression)."""
-    return f[0] in ("b", "q") or (f[0] == "w" and parse_number(f[1]) is not None)

@@ -1,0 +1,49 @@
+"""The output formats of ``scan`` and ``check``, by name: one registry that gives the
+``--format`` choices and renders, each format's module imported only when it is asked for
+(so that ``--help`` stays fast)."""
+
+from __future__ import annotations
+
+import importlib
+from collections.abc import Callable
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Format:
+    """One output format: its module and how its ``render`` is called."""
+
+    name: str
+    module: str
+    #: render(module, runs, top, exit_code) -> text
+    call: Callable
+    #: commands that offer it
+    commands: frozenset[str]
+
+
+def _runs_top(m, runs, top, _code):
+    return m.render(runs, top)
+
+
+FORMATS: dict[str, Format] = {f.name: f for f in (
+    Format("table", "tauscan.report.scan_table", _runs_top, frozenset({"scan"})),
+    Format("json", "tauscan.report.scan_json", lambda m, runs, _top, code: m.render(runs, code), frozenset({"scan", "check"})),
+    Format("csv", "tauscan.report.scan_csv", lambda m, runs, _top, _code: m.render(runs), frozenset({"scan"})),
+    Format("markdown", "tauscan.report.scan_markdown", _runs_top, frozenset({"scan"})),
+    Format("sarif", "tauscan.report.sarif", lambda m, runs, _top, _code: m.render(runs), frozenset({"scan", "check"})),
+)}
+#: the check table (the gate's own layout) stands in for the scan table under ``check``
+CHECK_TABLE = Format("table", "tauscan.report.check_table", lambda m, runs, _top, code: m.render(runs, code),
+                     frozenset({"check"}))
+
+
+def choices(command: str) -> list[str]:
+    """The ``--format`` names a command offers, the table first."""
+    names = [name for name, f in FORMATS.items() if command in f.commands]
+    return ["table"] + [n for n in names if n != "table"] if command == "check" else names
+
+
+def render(command: str, name: str, runs: list, top: int | None = None, exit_code: int | None = None) -> str:
+    """The report of ``runs`` in format ``name``, as ``command`` writes it."""
+    fmt = CHECK_TABLE if (command == "check" and name == "table") else FORMATS[name]
+    return fmt.call(importlib.import_module(fmt.module), runs, top, exit_code)

@@ -120,3 +120,22 @@ def test_scan_takes_several_netlists_and_corners():
         ("sensor_readout.sp", "a"), ("sensor_readout.sp", "b"), ("line_driver.sp", "a"), ("line_driver.sp", "b")]
     table = run_cli("scan", SENSOR, DRIVER, "--top", "3")
     assert table.returncode == 0 and "sensor_readout.sp" in table.stdout and "line_driver.sp" in table.stdout
+
+
+def test_a_worker_run_carries_the_plots_sweep():
+    """A scan run in a worker process (--jobs with several corners) comes back with the
+    response sweep the request asked for: --plot used to draw no curve then.  The sweep's
+    -3 dB crossing must agree with the run's own -3 dB figure (|H| / |H(0)| = 1/sqrt 2)."""
+    import pickle
+
+    import numpy as np
+
+    from tauscan.pipeline import ScanRequest, scan_in_worker
+
+    run = pickle.loads(pickle.dumps(scan_in_worker(ScanRequest(str(SAMPLES / "two_stage_amp.sp"), curve_points=400))))
+    assert run.circuit is None and run.op is None
+    freqs, mags = run.response_curve()
+    assert len(freqs) == 400 and np.all(np.diff(freqs) > 0)
+    below = mags / run.analysis.dc_gain < 2 ** -0.5
+    crossing = freqs[np.argmax(below)]
+    assert run.analysis.f3db_hz <= crossing <= run.analysis.f3db_hz * (freqs[1] / freqs[0]) ** 1.01

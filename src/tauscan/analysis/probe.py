@@ -67,9 +67,10 @@ def choose_probe(ss: SmallSignalNetwork, factors: Factors, b: np.ndarray, probe:
         solved[0.0] = x0
     else:
         mags = np.zeros(n)
-    if octc:
+    freqs = _probe_frequencies(octc) if octc else []
+    if freqs:
         solver = factors.complex
-        for f in _probe_frequencies(octc):
+        for f in freqs:
             try:
                 x = solver.solve(solver.factor(2j * math.pi * f), b.astype(complex))
             except RuntimeError:  # singular at this frequency: skip it
@@ -80,7 +81,7 @@ def choose_probe(ss: SmallSignalNetwork, factors: Factors, b: np.ndarray, probe:
     for name in list(ss.ac_ground) + list(net.internal):
         if name in net.index and net.index[name] > 0:
             mags[net.index[name] - 1] = -1
-    low = solved.get(_probe_frequencies(octc)[0]) if octc else None
+    low = solved.get(freqs[0]) if freqs else None
     if not np.any(mags > 0):
         return ProbeChoice(None, None, {}, low)
     row = int(np.argmax(mags))

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from tauscan.devices import registry
+
 
 @dataclass
 class SmallSignal:
@@ -49,8 +51,6 @@ class DeviceOP:
 
     def small_signal(self) -> SmallSignal:
         """Linear primitives of this device, placed by its model."""
-        from tauscan.devices import registry
-
         return registry.by_name(self.family).stamps(self)
 
 

@@ -217,10 +217,14 @@ def test_stepping_search_on_an_ac_coupled_probe(write, monkeypatch):
 
     peak = max(mag(f) for f in np.geomspace(1e2, 1e6, 4001))
     exact = brentq(lambda f: mag(f) - peak / math.sqrt(2), 1e4, 1e7)
-    assert "mid-band" in result.f3db_note and "stepping" in result.f3db_note
-    # the 8x grid samples the plateau about 0.1 % below its top (both corners are three
-    # decades from the samples' best point), which moves the crossing by about twice that
+    # the pass band's upper edge, on the circuit as read (C1 is a short in the mid-band circuit)
+    assert "pass band" in result.f3db_note
+    assert result.band.states == {"c1": "short"}
+    # the 4x grid samples the plateau a little below its top (both corners are three
+    # decades from the samples' best point), which moves the crossings by about twice that
     assert_allclose(result.f3db_hz, exact, rtol=5e-3)
+    low = brentq(lambda f: mag(f) - peak / math.sqrt(2), 1e-1, 1e4)
+    assert_allclose(result.band.f_low_hz, low, rtol=5e-3)
 
 
 def test_sparse_poles_do_not_depend_on_earlier_runs(write):

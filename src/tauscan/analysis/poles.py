@@ -36,6 +36,8 @@ ARPACK_RESTARTS = (40, 4)
 ARPACK_SEED = 20261202
 #: An eigenvalue of G^-1 C smaller than this fraction of the largest is an infinite pole.
 LAMBDA_FLOOR = 1e-13
+#: A pole whose real part is positive beyond this fraction of its magnitude is unstable.
+UNSTABLE_RTOL = 1e-9
 
 
 @dataclass
@@ -46,13 +48,22 @@ class Poles:
     right: np.ndarray | None = None  # eigenvector of the dominant pole (MNA rows)
     left: np.ndarray | None = None
     notes: list[str] = field(default_factory=list)
+    #: index in ``values`` of the transfer's dominant pole (largest |residue| / |Re p|)
+    dominant_index: int = 0
+    #: how the dominant pole was chosen
+    dominance: str = "smallest magnitude"
 
     @property
     def dominant(self) -> complex | None:
-        return complex(self.values[0]) if len(self.values) else None
+        return complex(self.values[self.dominant_index]) if len(self.values) else None
+
+    def unstable(self) -> list[complex]:
+        """Poles in the right half-plane (beyond round-off)."""
+        return [complex(p) for p in self.values if p.real > UNSTABLE_RTOL * abs(p)]
 
 
-def find_poles(factors: Factors, dense_limit: int = DENSE_LIMIT) -> Poles:
+def find_poles(factors: Factors, dense_limit: int = DENSE_LIMIT, b: np.ndarray | None = None,
+               e: np.ndarray | None = None) -> Poles:
     """Exact poles of (G + sC): all of them for up to ``dense_limit`` unknowns, the dominant
     few (shift-invert Arnoldi) above it, with the dominant pole's right and left vectors.
 
@@ -62,6 +73,11 @@ def find_poles(factors: Factors, dense_limit: int = DENSE_LIMIT) -> Poles:
         G and C (sparse (n, n), MNA rows, ground dropped) and their factorizations.
     dense_limit : int
         Largest n solved by a dense generalized eigen-solver.
+    b, e : ndarray, optional
+        The drive and the probe vector of a transfer e^T (G + sC)^-1 b: with all poles known
+        (dense), the dominant pole is then the transfer's, the stable pole with the largest
+        |r_i| / |Re p_i| (r_i its residue; Rommes and Martins 2006), not merely the one of
+        smallest magnitude, which the transfer may never see.
 
     Returns
     -------
@@ -73,11 +89,11 @@ def find_poles(factors: Factors, dense_limit: int = DENSE_LIMIT) -> Poles:
     if c.nnz == 0 or n == 0:
         return Poles(np.zeros(0, dtype=complex), True, "none")
     if n <= max(dense_limit, SPARSE_MIN):
-        return _dense(g, c)
+        return _dense(g, c, b, e)
     return _sparse(factors)
 
 
-def _dense(g, c) -> Poles:
+def _dense(g, c, b=None, e=None) -> Poles:
     lam, vl, vr = la.eig(c.toarray(), g.toarray(), left=True, right=True)
     finite = np.isfinite(lam)
     scale = np.max(np.abs(lam[finite]), initial=0.0)
@@ -86,10 +102,24 @@ def _dense(g, c) -> Poles:
         return Poles(np.zeros(0, dtype=complex), True, "dense")
     poles = -1.0 / lam[keep]
     order = np.lexsort((np.imag(poles), np.abs(poles)))
-    poles = poles[order]
-    k = np.flatnonzero(keep)[order[0]]
+    poles = _tidy(poles[order])
+    columns = np.flatnonzero(keep)[order]
     # eig's left vector u satisfies u^H C = lambda u^H G, so y = conj(u) in y^T (G + pC) = 0
-    return Poles(_tidy(poles), True, "dense", vr[:, k], np.conj(vl[:, k]))
+    pick, dominance = 0, "smallest magnitude"
+    if b is not None and e is not None:
+        x_all = vr[:, columns]
+        y_all = np.conj(vl[:, columns])
+        cd = c.toarray()
+        with np.errstate(divide="ignore", invalid="ignore"):
+            norm = np.einsum("ij,ij->j", y_all, cd @ x_all)
+            residue = (e @ x_all) * (b @ y_all) / norm
+            weight = np.abs(residue) / np.abs(poles.real)
+        stable = (poles.real < 0) & np.isfinite(weight)
+        if stable.any() and np.nanmax(np.where(stable, weight, -1.0)) > 0:
+            pick = int(np.argmax(np.where(stable, weight, -1.0)))
+            dominance = "largest |residue| / |Re p| of the transfer"
+    k = columns[pick]
+    return Poles(poles, True, "dense", vr[:, k], np.conj(vl[:, k]), dominant_index=pick, dominance=dominance)
 
 
 def _sparse(factors: Factors) -> Poles:

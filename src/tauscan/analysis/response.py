@@ -16,6 +16,7 @@ import numpy as np
 import scipy.linalg as la
 
 from tauscan.analysis.poles import DENSE_LIMIT, Poles
+from tauscan.analysis.probe import Probe
 from tauscan.analysis.systems import Factors
 
 #: Upward step of the -3 dB search in a large circuit (each point is a sparse complex
@@ -31,11 +32,12 @@ F3DB_MAX_HZ = 1e15
 
 
 class Response:
-    """|H(j 2 pi f)| from a source vector to one row."""
+    """H(j 2 pi f) from a source vector to a probe (a :class:`Probe`, or one row)."""
 
-    def __init__(self, factors: Factors, b: np.ndarray, row: int) -> None:
+    def __init__(self, factors: Factors, b: np.ndarray, row: "int | Probe") -> None:
         g, c = factors.g, factors.c
-        self.b, self.row = b.astype(complex), row
+        self.b = b.astype(complex)
+        self.probe = row if isinstance(row, Probe) else Probe(None, int(row))
         self.ill_conditioned = False
         self.dense = g.shape[0] <= DENSE_LIMIT
         #: H at frequencies already solved (by the probe choice, or here), reused as they are
@@ -63,9 +65,9 @@ class Response:
             else:
                 factored = self._solver.factor(s)
                 x = self._solver.solve(factored, self.b)
-                h = complex(x[self.row])
+                h = complex(self.probe.of(x))
                 if h != 0 and f > 0:
-                    dh = -complex(self._solver.solve(factored, self._c @ x)[self.row])
+                    dh = -complex(self.probe.of(self._solver.solve(factored, self._c @ x)))
                     slope = (s * dh / h).real
                     if math.isfinite(slope):
                         self.slopes[f] = slope
@@ -75,7 +77,7 @@ class Response:
             # singular at this frequency (an undamped resonance, or a loop of reactances)
             self.ill_conditioned = True
             return complex(math.nan, math.nan)
-        return complex(x[self.row])
+        return complex(self.probe.of(x))
 
     def dc(self) -> float:
         return abs(self(0.0))
@@ -276,7 +278,7 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
     return None, f"no -3 dB point below {F3DB_MAX_HZ:.0e} Hz"
 
 
-def response_curve(factors: Factors, b: np.ndarray, row: int, f_lo: float, f_hi: float,
+def response_curve(factors: Factors, b: np.ndarray, row: "int | Probe", f_lo: float, f_hi: float,
                    points: int = 200) -> tuple[np.ndarray, np.ndarray]:
     """Frequencies (Hz) and |H| from a log sweep (for plots)."""
     resp = Response(factors, b, row)

@@ -56,6 +56,13 @@ class CapacitorResult(_Compact):
     line: int
     device: str | None = None
     comment: str = ""
+    #: transfer time constant T_k (signed) and its share of the first moment (METHOD of
+    #: Hajimiri 2010); None without a transfer
+    transfer_tau_s: float | None = None
+    transfer_share: float | None = None
+    #: the signal's own gain across it at low frequency, v(node_out) / v(node_in)
+    signal_gain: float | None = None
+    on_signal_path: bool = True
 
     def to_json(self, waived: str | None = None) -> dict:
         """The JSON record; ``waived``: the reason of the waiver that applies (the lint stage's)."""
@@ -76,6 +83,10 @@ class CapacitorResult(_Compact):
             "octc_hz_if_cascoded": _finite(self.octc_hz_if_cascoded),
             "tau_in_s": _finite(self.part_in_s),
             "tau_out_s": _finite(self.part_out_s),
+            "transfer_tau_s": _finite(self.transfer_tau_s),
+            "transfer_share": _finite(self.transfer_share),
+            "signal_gain": _finite(self.signal_gain),
+            "on_signal_path": bool(self.on_signal_path),
             "file": self.file,
             "line": self.line,
             "waived": waived,
@@ -90,6 +101,11 @@ class NodeResult(_Compact):
     miller_tau_s: float
     miller_share: float
     miller_dominated: bool
+    transfer_tau_s: float | None = None
+    transfer_share: float | None = None
+    #: share of the node's transfer time constant that the signal's Miller gain adds
+    signal_miller_share: float | None = None
+    on_signal_path: bool = True
 
     def to_json(self) -> dict:
         return {
@@ -98,6 +114,10 @@ class NodeResult(_Compact):
             "share": _finite(self.share),
             "miller_share": _finite(self.miller_share),
             "miller_dominated": bool(self.miller_dominated),
+            "transfer_tau_s": _finite(self.transfer_tau_s),
+            "transfer_share": _finite(self.transfer_share),
+            "signal_miller_share": _finite(self.signal_miller_share),
+            "on_signal_path": bool(self.on_signal_path),
         }
 
 
@@ -128,6 +148,28 @@ class Analysis:
     signal_nodes: frozenset[str] | None = None
     #: (frequencies in Hz, |H|) from the source to the probe, when a sweep was asked for
     curve: tuple[list[float], list[float]] | None = None
+    #: the mid-band circuit that was analysed (a :class:`tauscan.analysis.band.Band`)
+    band: object | None = None
+    #: 1 / (2 pi sum T): the signal-path estimate of the -3 dB frequency
+    elmore_hz: float | None = None
+    #: the first moment of the transfer, -H'(0)/H(0) (signed)
+    sum_transfer_tau_s: float | None = None
+    #: poles in the right half-plane
+    unstable_poles: list[complex] = field(default_factory=list)
+    #: what one unit of drive is (the gain is per that unit)
+    drive_unit: str = ""
+    #: why the probe is the one it is
+    probe_reason: str = ""
+    #: "transfer" or "octc": how capacitors and nodes are ranked
+    rank: str = "octc"
+
+    @property
+    def on_path_capacitors(self) -> list[CapacitorResult]:
+        return [c for c in self.capacitors if c.on_signal_path]
+
+    @property
+    def off_path_capacitors(self) -> list[CapacitorResult]:
+        return [c for c in self.capacitors if not c.on_signal_path]
 
     @property
     def estimate_error(self) -> float | None:
@@ -169,6 +211,10 @@ class Analysis:
             "netlist": self.netlist,
             "source": self.source,
             "probe": self.probe,
+            "probe_reason": self.probe_reason,
+            "drive_unit": self.drive_unit,
+            "rank": self.rank,
+            "band": self.band.to_json() if self.band is not None else None,
             "summary": {
                 "sum_tau_s": _finite(self.sum_tau_s),
                 "octc_hz": _finite(self.octc_hz),
@@ -177,18 +223,23 @@ class Analysis:
                 "f3db_hz": _finite(self.f3db_hz),
                 "estimate_error": _finite(self.estimate_error),
                 "dc_gain": _finite(self.dc_gain),
+                "elmore_hz": _finite(self.elmore_hz),
+                "sum_transfer_tau_s": _finite(self.sum_transfer_tau_s),
             },
             "capacitors": [c.to_json(waived.get(c.name)) for c in self.capacitors],
             "nodes": [n.to_json() for n in self.nodes],
             "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],
+            "unstable_poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.unstable_poles],
             "warnings": list(self.warnings),
         }
 
 
 CAPACITOR_COLUMNS = [
     "name", "node_in", "node_out", "farads", "class", "gain", "factor_in", "factor_out", "ohms", "tau_s",
-    "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded", "tau_in_s", "tau_out_s", "file", "line", "waived",
+    "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded", "tau_in_s", "tau_out_s", "transfer_tau_s", "transfer_share", "signal_gain", "on_signal_path", "file", "line",
+    "waived",
 ]
-NODE_COLUMNS = ["node", "tau_s", "share", "miller_share", "miller_dominated"]
+NODE_COLUMNS = ["node", "tau_s", "share", "miller_share", "miller_dominated", "transfer_tau_s", "transfer_share",
+                "signal_miller_share", "on_signal_path"]
 
 __all__ = ["Analysis", "CapacitorResult", "NodeResult", "CAPACITOR_COLUMNS", "NODE_COLUMNS"]

@@ -330,8 +330,8 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
     Voltage sources and inductors are shorts at DC: their nodes are merged (or
     grounded).  Returns None when E, F or H sources need branch rows.
     """
-    circuit = ss.circuit
-    if any(e.kind in "efh" for e in circuit.general):
+    shorts = ss.dc_shorts()
+    if shorts is None:
         return None
     net = ss.network
     parent = list(range(net.n_nodes))
@@ -342,13 +342,12 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
             a = parent[a]
         return a
 
-    for e in circuit.general:
-        if e.kind in "vl":
-            a, b = find(net.node(e.nodes[0])), find(net.node(e.nodes[1]))
-            if a != b:
-                # ground (index 0) always stays the representative
-                lo, hi = min(a, b), max(a, b)
-                parent[hi] = lo
+    for e in shorts:
+        a, b = find(net.node(e.nodes[0])), find(net.node(e.nodes[1]))
+        if a != b:
+            # ground (index 0) always stays the representative
+            lo, hi = min(a, b), max(a, b)
+            parent[hi] = lo
     reps = np.array([find(i) for i in range(net.n_nodes)])
     keep = np.unique(reps[reps > 0])
     new_index = -np.ones(net.n_nodes, dtype=np.int64)

@@ -52,6 +52,18 @@ class SmallSignalNetwork:
         """Row of a node in G and C (-1 for ground)."""
         return self.network.node(node) - 1
 
+    def inductors(self) -> list[Element]:
+        """The inductors in the network (each has a branch row)."""
+        return [e for e in self.circuit.general if e.kind == "l"]
+
+    def dc_shorts(self) -> list[Element] | None:
+        """Voltage sources and inductors (shorts at DC, whose nodes a nodal matrix merges);
+        None when E, F or H sources need branch rows."""
+        general = self.circuit.general
+        if any(e.kind in "efh" for e in general):
+            return None
+        return [e for e in general if e.kind in "vl"]
+
     def ac_ground_tree(self) -> list[tuple[int, int, int, int]]:
         """The AC-ground nodes as ``(row, parent row or -1 for ground, source branch row,
         sign)``, each after its parent: v[row] = v[parent] + sign * b[branch] in an AC

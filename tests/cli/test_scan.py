@@ -13,7 +13,8 @@ from tests.conftest import SAMPLES, run_cli
 SENSOR = str(SAMPLES / "sensor_readout.sp")
 
 CAP_FIELDS = {"name", "node_in", "node_out", "farads", "class", "gain", "factor_in", "factor_out", "ohms", "tau_s",
-              "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded"}
+              "share", "pole_share", "octc_hz_if_removed", "octc_hz_if_cascoded", "transfer_tau_s", "transfer_share",
+              "signal_gain", "on_signal_path"}
 
 
 def test_json_contract():
@@ -22,18 +23,28 @@ def test_json_contract():
     data = json.loads(result.stdout)
     assert {"netlist", "source", "probe", "summary", "capacitors", "nodes", "poles", "findings", "warnings"} <= set(data)
     assert data["probe"] == "samp" and data["source"] == "vin"
-    assert set(data["summary"]) >= {"sum_tau_s", "octc_hz", "dominant_pole_hz", "f3db_hz"}
+    assert set(data["summary"]) >= {"sum_tau_s", "octc_hz", "dominant_pole_hz", "f3db_hz", "elmore_hz", "dc_gain",
+                                    "sum_transfer_tau_s"}
+    assert {"mode", "f_mid_hz", "f_low_hz", "f_high_hz", "f_low_estimate_hz", "states", "warnings"} <= set(data["band"])
     caps = data["capacitors"]
     assert all(CAP_FIELDS <= set(c) for c in caps)
-    taus = [c["tau_s"] for c in caps]
+    # ranked by transfer time constant, the signal path first (METHOD section 7)
+    assert data["rank"] == "transfer"
+    on = [c["on_signal_path"] for c in caps]
+    assert on == sorted(on, reverse=True)
+    taus = [c["transfer_tau_s"] for c in caps if c["on_signal_path"]]
     assert taus == sorted(taus, reverse=True)
+    assert all(c["transfer_tau_s"] == 0 for c in caps if not c["on_signal_path"])
+    # the transfer time constants add up to the first moment
+    assert sum(c["transfer_tau_s"] for c in caps) == pytest.approx(data["summary"]["sum_transfer_tau_s"], rel=1e-9)
     for c in caps:
         assert c["name"] == c["name"].lower()
         if c["class"] == "grounded":
             assert c["node_out"] == "0" and c["gain"] is None and c["factor_out"] is None
         else:
             assert isinstance(c["gain"], float)
-    assert {"node", "tau_s", "share", "miller_share", "miller_dominated"} <= set(data["nodes"][0])
+    assert {"node", "tau_s", "share", "miller_share", "miller_dominated", "transfer_tau_s", "transfer_share",
+            "signal_miller_share", "on_signal_path"} <= set(data["nodes"][0])
     assert {"hz", "real", "imag"} == set(data["poles"][0])
     # shares add up to 1 (METHOD section 4)
     assert sum(c["share"] for c in caps) == pytest.approx(1.0, rel=1e-9)
@@ -95,5 +106,5 @@ def test_bad_options_exit_2_with_one_line(args, message, tmp_path):
 def test_table_to_a_pipe_is_plain_text():
     result = run_cli("scan", SENSOR)
     assert result.returncode == 0
-    assert "Capacitors by time constant" in result.stdout and "\x1b[" not in result.stdout
+    assert "Capacitors on the signal path by transfer time constant" in result.stdout and "\x1b[" not in result.stdout
     assert result.stderr == ""  # progress is shown only when stderr is a terminal

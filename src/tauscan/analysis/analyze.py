@@ -99,7 +99,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     out_probe, probe_reason = None, ""
     if drive is not None:
         b = work.reduce(drive.b) if work is not ss else drive.b
-        out_probe, probe_reason = _probe_on(work, wfactors, b, chosen.passband, named, octc, warnings)
+        out_probe, probe_reason = _probe_on(ss, work, wfactors, b, chosen.passband, named, octc, warnings)
     e = out_probe.vector(wfactors.g.shape[0]) if out_probe is not None else None
     # -- poles and what to fix ---------------------------------------------------
     found = poles_mod.find_poles(wfactors, settings.dense_limit, b, e)
@@ -259,7 +259,7 @@ def _mid_band(ss, factors: Factors, dc_table, drive: Drive | None, named: Probe 
     return _Chosen(mid.network, mid.factors, (kept, table, z_method), band, found)
 
 
-def _probe_on(work, wfactors: Factors, b: np.ndarray, found: Passband | None, named: Probe | None,
+def _probe_on(ss, work, wfactors: Factors, b: np.ndarray, found: Passband | None, named: Probe | None,
               octc: float | None, warnings: list[str]) -> tuple[Probe | None, str]:
     """The probe on the analysed network and why it was chosen: the one named, or the one
     the pass-band sweep chose, or (no sweep) the node with the largest response."""
@@ -271,7 +271,7 @@ def _probe_on(work, wfactors: Factors, b: np.ndarray, found: Passband | None, na
         name = None
     if name is not None:
         try:
-            return named_probe(work, name), reason
+            return named_probe(work, name, allow_ground=work is not ss), reason
         except SelectionError as exc:
             warnings.append(f"the probe {name!r} is not a node of the mid-band circuit ({exc.reason}); no transfer figures")
             return None, ""
@@ -333,10 +333,10 @@ def _transfer(work, wfactors: Factors, b: np.ndarray | None, probe: Probe | None
     if passband_found is not None and chosen.band.f_low_hz:
         out.f3db_hz = passband_found.f_high
         out.note = ("upper edge of the pass band (|H| = peak/sqrt(2) on the circuit as read)" if out.f3db_hz
-                    else "no upper edge of the pass band below the top of the sweep")
+                    else "no -3 dB point: the pass band has no upper edge below the top of the sweep")
     else:
-        if passband_found is not None and not as_read:
-            resp.known.update(passband_found.known)
+        if passband_found is not None and not as_read and passband_found.sparse and not resp.dense:
+            resp.known.update(passband_found.known)  # each was a sparse factorization
         out.f3db_hz, out.note = f3db(resp, found, octc)
     if resp.ill_conditioned:
         warnings.append("the small-signal system is ill-conditioned (a node held almost only by GMIN or "
@@ -378,7 +378,8 @@ def _capacitor_records(keep, table, excess, cascoded, shares, sum_tau: float, tt
         t_tau = tt.cap_tau.tolist()
         with np.errstate(divide="ignore", invalid="ignore"):
             t_share = (tt.cap_tau / tt.sum_tau).tolist() if tt.sum_tau else [None] * m
-        t_gain = [None if x != x else x for x in tt.cap_gain.tolist()]
+        grounded_now = np.asarray(table.grounded, dtype=bool).tolist()
+        t_gain = [None if (x != x or grounded_now[k]) else x for k, x in enumerate(tt.cap_gain.tolist())]
         t_on = tt.cap_on.tolist()
     else:
         t_tau = t_share = t_gain = [None] * m

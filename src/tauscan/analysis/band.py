@@ -158,6 +158,8 @@ class Passband:
     #: H at the probe at every frequency solved (reused by the -3 dB search)
     known: dict[float, complex]
     top_hz: float
+    #: whether each point was a sparse factorization (then worth reusing)
+    sparse: bool = False
 
     @property
     def f_mid(self) -> float:
@@ -188,8 +190,10 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
     peak = float(np.abs(values[0]).max(initial=0.0)) if values else 0.0
     f = start_hz
     below = 0
+    last = None
     while f <= top_hz:
         x = sweep(f)
+        step = ratio
         if x is not None:
             v = watch(x)
             freqs.append(f)
@@ -201,7 +205,12 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
                 below += 1
                 if below >= 2:
                     break
-        f *= ratio
+            # across a flat stretch (within 1 % over a step) of a large circuit, stride
+            # further: each point is a factorization, and the edges are refined afterwards
+            if not sweep.dense and last is not None and last > 0 and abs(math.log(max(env, 1e-300) / last)) < 0.01:
+                step = ratio ** 2
+            last = env
+        f *= step
     if not freqs or peak == 0:
         return None
     block = np.array(values)  # points x watched
@@ -243,7 +252,7 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
             f_low = (_refine(resp, level, lo, hi, v_lo, v_hi) if resp.dense
                      else _refine_sloped(resp, level, hi, lo, v_hi, v_lo)) or hi
             break
-    return Passband(probe, f_low, f_high, top, dict(resp.known), freqs[-1])
+    return Passband(probe, f_low, f_high, top, dict(resp.known), freqs[-1], not sweep.dense)
 
 
 # -- states ------------------------------------------------------------------------------------

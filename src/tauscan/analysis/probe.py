@@ -103,8 +103,10 @@ def drive_of(ss, name: str | None) -> Drive | None:
     return Drive(tuple(e.name for e in chosen), b[1:], unit)
 
 
-def named_probe(ss, text: str) -> Probe:
-    """The probe the user named: a node, or ``a,b`` for v(a) - v(b) (checked)."""
+def named_probe(ss, text: str, allow_ground: bool = False) -> Probe:
+    """The probe the user named: a node, or ``a,b`` for v(a) - v(b) (checked; an AC-ground
+    node is refused unless ``allow_ground``, as for a probe merged into a source node by
+    the mid-band shorts)."""
     parts = [t.strip().lower() for t in text.split(",")]
     if len(parts) > 2 or not all(parts):
         raise SelectionError("probe", text, "give a node, or two nodes as a,b for v(a) - v(b)")
@@ -112,11 +114,12 @@ def named_probe(ss, text: str) -> Probe:
     rows = []
     for key in parts:
         if key not in net.index or key in net.internal:
-            raise SelectionError("probe", text, f"no node {key!r} in the circuit")
+            raise SelectionError("probe", text, "no such node in the circuit" if len(parts) == 1
+                                 else f"no such node {key!r} in the circuit")
         rows.append(ss.row(key))
-    if len(parts) == 1 and parts[0] in ss.ac_ground:
+    if len(parts) == 1 and parts[0] in ss.ac_ground and not allow_ground:
         raise SelectionError("probe", text, "is an AC ground (tied to ground through voltage sources)")
-    if len(rows) == 2 and rows[0] == rows[1]:
+    if len(rows) == 2 and rows[0] == rows[1] and not allow_ground:
         raise SelectionError("probe", text, "names the same node twice")
     return Probe(",".join(parts), rows[0], rows[1] if len(rows) == 2 else -1)
 

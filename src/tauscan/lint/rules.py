@@ -43,7 +43,12 @@ def _first_line(circuit, node: str, default: str) -> tuple[str, int | None]:
 
 
 def miller_node(ctx) -> list[Finding]:
+    """A node whose time constant is mostly Miller multiplication.  With a transfer, it is
+    judged on the signal path: its transfer share and the signal's own Miller part (a node
+    the drive or the probe does not reach is never the subject)."""
     a, s = ctx.analysis, ctx.settings
+    if a.rank == "transfer" and a.sum_transfer_tau_s is not None:
+        return _signal_miller_nodes(ctx)
     # a waived capacitor's Miller part does not count toward a node finding
     waived_excess: dict[str, float] = {}
     for cap in a.capacitors:
@@ -73,23 +78,64 @@ def miller_node(ctx) -> list[Finding]:
     return found
 
 
+def _signal_miller_nodes(ctx) -> list[Finding]:
+    a, s = ctx.analysis, ctx.settings
+    found = []
+    for node in a.nodes:
+        if not node.on_signal_path or not node.transfer_tau_s or node.transfer_tau_s <= 0:
+            continue
+        if (node.transfer_share or 0.0) < s.miller_share:
+            continue
+        caps = [c for c in a.capacitors if c.on_signal_path and c.name not in ctx.waivers and c.signal_gain is not None
+                and c.signal_gain < 0 and node.node in (c.node_in, c.node_out)]
+        # the signal Miller part left once waived capacitors are taken out, in proportion to
+        # their share of the node's signal-Miller capacitors' transfer time constants
+        all_caps = [c for c in a.capacitors if c.on_signal_path and c.signal_gain is not None and c.signal_gain < 0
+                    and node.node in (c.node_in, c.node_out)]
+        total = sum(abs(c.transfer_tau_s or 0.0) for c in all_caps)
+        kept = sum(abs(c.transfer_tau_s or 0.0) for c in caps)
+        miller = (node.signal_miller_share or 0.0) * (kept / total if total else 0.0)
+        if miller < s.miller_threshold:
+            continue
+        caps.sort(key=lambda c: -(c.transfer_tau_s or 0.0))
+        worst = caps[0] if caps else None
+        if worst is not None:
+            file, line = worst.file, worst.line
+        else:
+            file, line = _first_line(ctx.circuit, node.node, a.netlist)
+        found.append(Finding(
+            "miller-node", ctx.level("miller-node"), file, line, node.node,
+            "node {} carries {:.0%} of the signal path's time constant, {:.0%} of it Miller multiplication{}",
+            (node.node, node.transfer_share, miller,
+             f" (mostly {worst.name}, signal gain {worst.signal_gain:.3g})" if worst else ""),
+            {"share": node.transfer_share, "miller_share": miller, "tau_s": node.transfer_tau_s},
+        ))
+    return found
+
+
 def bandwidth_floor(ctx) -> list[Finding]:
+    """The exact -3 dB frequency of the transfer against the floor (the signal-path
+    estimate, then the open-circuit one, only where there is no exact figure)."""
     a, s = ctx.analysis, ctx.settings
     if s.min_bandwidth is None:
         return []
-    if ctx.probe_given and a.f3db_hz is not None:
+    if a.f3db_hz is not None:
         figure, what = a.f3db_hz, f"-3 dB bandwidth at {a.probe}"
+    elif a.elmore_hz is not None:
+        figure, what = a.elmore_hz, "signal-path (transfer time-constant) estimate"
     else:
         figure, what = a.octc_hz, "open-circuit time-constant estimate"
     if figure is None or figure >= s.min_bandwidth:
         return []
-    top = a.capacitors[0] if a.capacitors else None
+    top = next((c for c in a.capacitors if c.on_signal_path), None)
     return [Finding(
         "bandwidth-floor", ctx.level("bandwidth-floor"), top.file if top else a.netlist, top.line if top else None,
         a.probe or "circuit",
         "{} is {}, below the floor of {}{}",
         (what, eng(figure, "Hz"), eng(s.min_bandwidth, "Hz"),
-         f"; the largest time constant is {top.name} ({top.share:.0%})" if top else ""),
+         (f"; the largest transfer time constant is {top.name} ({top.transfer_share:.0%})"
+          if top and top.transfer_share is not None else
+          f"; the largest time constant is {top.name} ({top.share:.0%})" if top else "")),
         {"hz": figure, "floor_hz": s.min_bandwidth},
     )]
 
@@ -104,6 +150,20 @@ def regenerative_cap(ctx) -> list[Finding]:
                 (cap.name, cap.gain, cap.node_in, cap.node_out), {"gain": cap.gain},
             ))
     return out
+
+
+def unstable_pole(ctx) -> list[Finding]:
+    a = ctx.analysis
+    if not a.unstable_poles:
+        return []
+    p = max(a.unstable_poles, key=lambda q: q.real)
+    return [Finding(
+        "unstable-pole", ctx.level("unstable-pole"), a.netlist, None, a.probe or "circuit",
+        "{} pole{} in the right half-plane (the fastest-growing at {}, real part {:+.3g} /s): the circuit "
+        "oscillates or latches, and its bandwidth figures do not apply",
+        (len(a.unstable_poles), "s" if len(a.unstable_poles) > 1 else "", eng(abs(p) / (2 * 3.141592653589793), "Hz"),
+         p.real), {"count": len(a.unstable_poles), "real": p.real, "imag": p.imag},
+    )]
 
 
 def floating_node(ctx) -> list[Finding]:
@@ -138,8 +198,12 @@ RULES: dict[str, Rule] = {
              "A node whose time constant is mostly Miller multiplication and that carries a large share of the total.",
              miller_node),
         Rule("bandwidth-floor", "error", "Bandwidth below the floor",
-             "The open-circuit estimate (or the -3 dB frequency at a named probe) is below --min-bandwidth.",
+             "The exact -3 dB frequency of the source-to-probe transfer (an estimate only where there is none) "
+             "is below --min-bandwidth.",
              bandwidth_floor),
+        Rule("unstable-pole", "error", "Pole in the right half-plane",
+             "The small-signal network has a pole with a positive real part: it oscillates or latches.",
+             unstable_pole),
         Rule("regenerative-cap", "warning", "Capacitor across a gain of one or more",
              "A capacitor spanning a non-inverting gain of 1 or more: its input sees a negative capacitance.",
              regenerative_cap),

@@ -15,8 +15,9 @@ def scan_record(run) -> dict:
     data["waivers"] = [{"capacitor": w.capacitor, "reason": w.reason, "source": w.source} for w in run.lint.waivers]
     data["warnings"] = list(a.warnings)
     data["methods"] = dict(a.methods)
-    ordered = {k: data[k] for k in ("netlist", "corner", "title", "source", "probe", "summary", "capacitors", "nodes", "poles",
-                                    "findings", "waivers", "warnings", "methods")}
+    ordered = {k: data[k] for k in ("netlist", "corner", "title", "source", "probe", "probe_reason",
+                                    "drive_unit", "rank", "band", "summary", "capacitors", "nodes", "poles",
+                                    "unstable_poles", "findings", "waivers", "warnings", "methods")}
     return ordered
 
 

@@ -31,8 +31,17 @@ def summary(run) -> Table:
     grid = Table.grid(padding=(0, 2))
     grid.add_column(style="bold")
     grid.add_column()
+    band = a.band
+    if band is not None and band.note:
+        grid.add_row("circuit analysed", band.note)
+    if band is not None and band.f_low_hz:
+        grid.add_row("low corner", f"{eng(band.f_low_hz, 'Hz')} exact, {eng(band.f_low_estimate_hz, 'Hz')} "
+                     "by short-circuit time constants")
     grid.add_row("sum of time constants", eng(a.sum_tau_s, "s"))
     grid.add_row("open-circuit estimate", eng(a.octc_hz, "Hz"))
+    if a.sum_transfer_tau_s is not None:
+        grid.add_row("signal-path estimate", eng(a.elmore_hz, "Hz") + f"  (sum of transfer time constants "
+                     f"{eng(a.sum_transfer_tau_s, 's')})")
     dom = eng(a.dominant_pole_hz, "Hz")
     if a.dominant_q is not None:
         dom += f" (complex pair, Q = {a.dominant_q:.2f})"
@@ -42,8 +51,29 @@ def summary(run) -> Table:
     if a.estimate_error is not None:
         grid.add_row("estimate vs exact", f"{100 * a.estimate_error:+.1f}%" + _trust(a))
     if a.dc_gain is not None and a.source:
-        grid.add_row("low-frequency gain", f"{a.dc_gain:.4g} from {a.source}")
+        what = "mid-band gain" if band is not None and band.f_low_hz else "low-frequency gain"
+        grid.add_row(what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}")
+    if a.probe and a.probe_reason:
+        grid.add_row("probe", f"{a.probe} ({a.probe_reason})")
+    for p in a.unstable_poles:
+        grid.add_row(Text("unstable pole", style="bold red"), f"{eng(abs(p) / 6.283185307179586, 'Hz')} "
+                     f"(real part {p.real:+.3g} /s: right half-plane)")
     return grid
+
+
+def band_block(run) -> list:
+    """The elements whose mid-band state differs from DC, and why."""
+    band = run.analysis.band
+    if band is None or not band.states:
+        return []
+    t = Table(title=f"States at mid-band that differ from DC ({len(band.states)})", title_justify="left",
+              header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
+    for col, justify in (("element", "left"), ("state", "left"), ("low-band tau", "right"), ("why", "left")):
+        t.add_column(col, justify=justify, overflow="fold" if col == "why" else None)
+    taus = {e.name: e.tau_s for e in band.low_band}
+    for name, state in band.states.items():
+        t.add_row(name, state, eng(taus.get(name), "s"), band.reasons.get(name, ""))
+    return [t]
 
 
 def _trust(a) -> str:
@@ -56,34 +86,60 @@ def _trust(a) -> str:
 
 def capacitor_table(run, top: int | None) -> Table:
     a = run.analysis
-    caps = a.capacitors[:top] if top else a.capacitors
-    t = Table(title=f"Capacitors by time constant ({len(caps)} of {len(a.capacitors)})", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
-    for name, justify in (("#", "right"), ("capacitor", "left"), ("input -> other", "left"), ("C", "right"),
-                          ("gain", "right"), ("class", "left"), ("Miller x", "right"), ("R seen", "right"),
-                          ("tau", "right"), ("share", "right"), ("pole share", "right"), ("f w/o it", "right"),
-                          ("f cascoded", "right")):
+    on_path = a.on_path_capacitors
+    caps = on_path[:top] if top else on_path
+    by = "transfer time constant" if a.rank == "transfer" else "open-circuit time constant"
+    where = " on the signal path" if a.rank == "transfer" else ""
+    t = Table(title=f"Capacitors{where} by {by} ({len(caps)} of {len(on_path)})", title_justify="left",
+              header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
+    transfer = a.sum_transfer_tau_s is not None
+    columns = [("#", "right"), ("capacitor", "left"), ("input -> other", "left"), ("C", "right"),
+               ("gain", "right"), ("class", "left"), ("Miller x", "right"), ("R seen", "right"),
+               ("tau", "right"), ("share", "right")]
+    if transfer:
+        columns += [("signal gain", "right"), ("T", "right"), ("T share", "right")]
+    columns += [("pole share", "right"), ("f w/o it", "right"), ("f cascoded", "right")]
+    for name, justify in columns:
         t.add_column(name, justify=justify, no_wrap=name in ("capacitor", "class"))
     waived = run.lint.waived
     for k, c in enumerate(caps, start=1):
         name = c.name + (" (waived)" if c.name in waived else "")
-        t.add_row(
-            str(k), name, f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain),
-            Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),
-            eng(c.tau_s, "s"), _pct(c.share), _pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"),
-            eng(c.octc_hz_if_cascoded, "Hz"),
-        )
+        row = [str(k), name, f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain),
+               Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),
+               eng(c.tau_s, "s"), _pct(c.share)]
+        if transfer:
+            row += [_num(c.signal_gain), eng(c.transfer_tau_s, "s"), _pct(c.transfer_share)]
+        row += [_pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
+        t.add_row(*row)
     return t
+
+
+def off_path_block(run, top: int | None) -> list:
+    """Capacitors the drive or the probe does not reach: listed, never ranked with the rest."""
+    off = run.analysis.off_path_capacitors
+    if not off:
+        return []
+    shown = off[:top] if top else off
+    names = ", ".join(f"{c.name} ({eng(c.tau_s, 's')} open-circuit)" for c in shown)
+    more = f" and {len(off) - len(shown)} more" if len(off) > len(shown) else ""
+    return [Text(f"Off the signal path ({len(off)}; transfer time constant 0): {names}{more}", style="dim")]
 
 
 def node_table(run, top: int | None) -> Table:
     a = run.analysis
     nodes = a.nodes[:top] if top else a.nodes
     t = Table(title=f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
-    for name in ("node", "tau", "share", "Miller share", ""):
-        t.add_column(name, justify="left" if name in ("node", "") else "right")
+    transfer = a.sum_transfer_tau_s is not None
+    names = ["node", "tau", "share", "Miller share"] + (["T", "T share", "signal Miller", "path"] if transfer else []) + [""]
+    for name in names:
+        t.add_column(name, justify="left" if name in ("node", "", "path") else "right")
     for n in nodes:
         flag = Text("Miller-dominated", style="bold magenta") if n.miller_dominated else Text("")
-        t.add_row(n.node, eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share), flag)
+        row = [n.node, eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share)]
+        if transfer:
+            row += [eng(n.transfer_tau_s, "s"), _pct(n.transfer_share), _pct(n.signal_miller_share),
+                    "signal" if n.on_signal_path else "off"]
+        t.add_row(*row, flag)
     return t
 
 
@@ -113,7 +169,8 @@ def renderables(run, top: int | None = 20) -> Group:
     head = Text.assemble((a.title or "", "bold"), f"  {run.request.netlist}")
     if a.source:
         head.append(f"  source {a.source}" + (f", probe {a.probe}" if a.probe else ""))
-    parts = [head, summary(run), capacitor_table(run, top), node_table(run, top)]
+    parts = [head, summary(run), *band_block(run), capacitor_table(run, top), *off_path_block(run, top),
+             node_table(run, top)]
     parts.extend(findings_block(run))
     parts.append(Text("First-order estimates from device models: they point where to look, not a substitute for simulation.", style="dim"))
     return Group(*parts)

@@ -70,8 +70,17 @@ def _add_batch_options(p: argparse.ArgumentParser) -> None:
 
 
 def _add_analysis_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--probe", metavar="NODE", help="output node for the -3 dB frequency (default: the largest gain)")
-    p.add_argument("--source", metavar="NAME", help="input source (default: the one with an AC value)")
+    p.add_argument("--probe", metavar="NODE", help="output node of the transfer, or A,B for v(A) - v(B) "
+                   "(default: the top-level node with the largest gain)")
+    p.add_argument("--source", metavar="NAME", help="input source (default: every source with an AC value, together)")
+    p.add_argument("--band", metavar="auto|dc|FREQ", help="the circuit analysed: auto (the mid-band circuit of the "
+                   "pass band; default), dc (capacitors open, inductors shorted) or the states at a frequency")
+    p.add_argument("--short", action="append", default=[], metavar="GLOB",
+                   help="pin capacitors or inductors short in the analysed circuit (repeatable)")
+    p.add_argument("--open", action="append", default=[], metavar="GLOB",
+                   help="pin capacitors or inductors open in the analysed circuit (repeatable)")
+    p.add_argument("--rank", choices=["transfer", "octc"], help="rank by transfer time constant (default: the "
+                   "signal path first) or by open-circuit time constant")
     p.add_argument("--min-bandwidth", metavar="FREQ", help="bandwidth-floor rule threshold, e.g. 100k or 2.5meg")
     p.add_argument("--config", metavar="FILE", help="settings file (default: tauscan.toml or pyproject.toml found upwards)")
 
@@ -128,12 +137,13 @@ def cmd_op(args: argparse.Namespace) -> int:
 
 
 def _requests(args: argparse.Namespace, netlists: list[str]):
-    from tauscan.lint.settings import bandwidth_value
+    from tauscan.lint.settings import band_value, bandwidth_value
     from tauscan.pipeline import ScanRequest
 
     from tauscan.corners import parse_corner
 
     floor = bandwidth_value(args.min_bandwidth) if args.min_bandwidth else None
+    band = band_value(args.band) if getattr(args, "band", None) else None
     params = parse_params(args.param)
     from tauscan.pipeline import settings_for
 
@@ -151,6 +161,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
             requests.append(ScanRequest(netlist=netlist, params=merged, temp_c=temp, op_file=args.op_file,
                                         probe=args.probe, source=args.source, config=args.config,
                                         min_bandwidth=floor, fail_on=getattr(args, "fail_on", None),
+                                        band=band, short=tuple(getattr(args, "short", ())),
+                                        open=tuple(getattr(args, "open", ())), rank=getattr(args, "rank", None),
                                         corner=corner.name if corner else None,
                                         lib_section=corner.lib if corner else None))
     if getattr(args, "plot", None) and requests:  # the plot draws the first run's transfer

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tauscan.analysis import AnalysisSettings, analyze_network
+from tauscan.analysis.band import BandRequest
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
 from tauscan.gcpause import paused_gc
@@ -36,6 +37,11 @@ class ScanRequest:
     response: bool = True
     #: points of a source-to-probe magnitude sweep to keep with the result (0: none; plots)
     curve_points: int = 0
+    #: ("auto" | "dc" | "fixed", frequency) from --band; None: the settings' choice
+    band: tuple | None = None
+    short: tuple[str, ...] = ()  # --short globs
+    open: tuple[str, ...] = ()  # --open globs
+    rank: str | None = None
     corner: str | None = None  # name of the process/voltage/temperature corner, if any
     lib_section: str | None = None  # the corner's .lib section, if it selects one
 
@@ -90,7 +96,16 @@ def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
     path = request.config or lint_settings.find_config(request.netlist)
     base = lint_settings.load(path) if path else lint_settings.LintSettings()
     return base.merged(min_bandwidth=request.min_bandwidth, fail_on=request.fail_on,
-                       probe=request.probe, source=request.source)
+                       probe=request.probe, source=request.source, band=request.band, rank=request.rank)
+
+
+def band_request(request: ScanRequest, settings: lint_settings.LintSettings) -> BandRequest:
+    """The mid-band choice: --band over the settings' ``band``; pins from the settings'
+    ``[states]`` table and --short / --open together (the command line wins on a clash)."""
+    mode, freq = settings.band
+    short = [g for g, state in settings.states.items() if state == "short" and g not in request.open]
+    opened = [g for g, state in settings.states.items() if state == "open" and g not in request.short]
+    return BandRequest(mode, freq, tuple(short) + tuple(request.short), tuple(opened) + tuple(request.open))
 
 
 def scan_in_worker(request: ScanRequest) -> ScanRun:
@@ -118,7 +133,8 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
     with timed.stage("analyze", "small-signal analysis"):
         analysis = analyze_network(ss, op, settings.probe, settings.source,
                                    AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response,
-                                                    curve_points=request.curve_points))
+                                                    curve_points=request.curve_points,
+                                                    band=band_request(request, settings), rank=settings.rank))
         analysis.warnings.extend(circuit.warnings)
     with timed.stage("lint", "lint rules"):
         lint = run_rules(analysis, circuit, op, settings, settings.probe is not None)

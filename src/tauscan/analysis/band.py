@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import fnmatch
 import math
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -138,13 +139,30 @@ class Sweep:
         s = 2j * math.pi * f
         try:
             if self.dense:
-                x = la.solve(self._g + s * self._c, self.b, check_finite=False)
+                x = _equilibrated_solve(self._g + s * self._c, self.b)
             else:
                 solver = self.factors.complex
                 x = solver.solve(solver.factor(s), self.b)
         except (np.linalg.LinAlgError, RuntimeError, la.LinAlgWarning):
             return None
         return x if np.all(np.isfinite(x)) else None
+
+
+def _equilibrated_solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve a x = b with rows, then columns, scaled to unit largest entries: a testbench
+    puts terahenries and terafarads beside femtofarads, and the unscaled matrix looks
+    singular to LAPACK's condition estimate while the scaled one is well posed."""
+    with np.errstate(divide="ignore"):
+        r = 1.0 / np.abs(a).max(axis=1)
+    r[~np.isfinite(r)] = 1.0
+    a1 = a * r[:, None]
+    with np.errstate(divide="ignore"):
+        c = 1.0 / np.abs(a1).max(axis=0)
+    c[~np.isfinite(c)] = 1.0
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", la.LinAlgWarning)
+        y = la.solve(a1 * c[None, :], r * b, check_finite=False)
+    return c * y
 
 
 @dataclass

@@ -7,14 +7,17 @@ Keys (all optional)::
     miller-share    = 0.2        # miller-node: share of the total a node must carry
     miller-threshold = 0.5       # a node is Miller-dominated above this Miller share
     fail-on         = "warning"  # exit 1 on findings at or above: note|warning|error|never
-    probe           = "out"
+    probe           = "out"      # a node, or "a,b" for v(a) - v(b)
     source          = "vin"
+    band            = "auto"     # the mid-band circuit: auto | dc | a frequency such as "10k"
+    rank            = "transfer" # rank by transfer time constant, or "octc" (open-circuit)
+    [states]                     # element-name glob = "short" | "open": pinned mid-band states
     [severity]                   # per-rule overrides: "miller-node" = "error"
     [waive]                      # capacitor-name glob = reason
     "ccomp" = "compensation capacitor, Miller by design"
 
-In a pyproject.toml the tables are ``[tool.tauscan]``, ``[tool.tauscan.severity]`` and
-``[tool.tauscan.waive]``.
+In a pyproject.toml the tables are ``[tool.tauscan]``, ``[tool.tauscan.severity]``,
+``[tool.tauscan.waive]`` and ``[tool.tauscan.states]``.
 """
 
 from __future__ import annotations
@@ -31,7 +34,9 @@ try:  # Python 3.11+
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib  # type: ignore[no-redef]
 
-KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive", "corners"}
+KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive", "corners",
+        "band", "rank", "states"}
+RANKS = ("transfer", "octc")
 
 
 @dataclass(frozen=True)
@@ -45,6 +50,11 @@ class LintSettings:
     severity: dict = field(default_factory=dict)
     waive: dict = field(default_factory=dict)  # glob -> reason
     corners: tuple = ()  # tauscan.corners.Corner, from a [corners] table
+    #: ("auto" | "dc" | "fixed", frequency for "fixed")
+    band: tuple = ("auto", None)
+    rank: str = "transfer"
+    #: element-name glob -> "short" | "open"
+    states: dict = field(default_factory=dict)
     origin: str | None = None  # the file the settings came from
 
     def merged(self, **overrides) -> "LintSettings":
@@ -135,6 +145,16 @@ def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
         if not isinstance(table, dict) or not all(isinstance(v, str) and v.strip() for v in table.values()):
             raise SettingsError("waive must be a table of capacitor-name glob = reason", path, _line_of(text, "waive"))
         values["waive"] = {k.lower(): v for k, v in table.items()}
+    if "band" in data:
+        values["band"] = band_value(data["band"], path, _line_of(text, "band"))
+    if "rank" in data:
+        values["rank"] = rank_value(data["rank"], path, _line_of(text, "rank"))
+    if "states" in data:
+        table = data["states"]
+        if not isinstance(table, dict) or not all(v in ("short", "open") for v in table.values()):
+            raise SettingsError('states must be a table of element-name glob = "short" or "open"', path,
+                                _line_of(text, "[states]") or _line_of(text, "states"))
+        values["states"] = {k.lower(): v for k, v in table.items()}
     if "corners" in data:
         values["corners"] = _corners(data["corners"], path, _line_of(text, "[corners]") or _line_of(text, "corners"))
     return LintSettings(**values)
@@ -188,6 +208,22 @@ def bandwidth_value(raw, path: str | None = None, line: int | None = None) -> fl
     if value is None or value <= 0:
         raise SettingsError(f"min-bandwidth takes a positive frequency such as 100k or 2.5meg, not {raw!r}", path, line)
     return value
+
+
+def band_value(raw, path: str | None = None, line: int | None = None) -> tuple:
+    """``auto``, ``dc`` or a frequency (``10k``, ``1meg``, ``2.5e6``): the mid-band circuit's choice."""
+    if isinstance(raw, str) and raw.strip().lower() in ("auto", "dc"):
+        return (raw.strip().lower(), None)
+    try:
+        return ("fixed", bandwidth_value(raw, path, line))
+    except SettingsError:
+        raise SettingsError(f"band takes auto, dc or a positive frequency such as 10k, not {raw!r}", path, line) from None
+
+
+def rank_value(raw, path: str | None = None, line: int | None = None) -> str:
+    if raw not in RANKS:
+        raise SettingsError(f"rank must be one of {', '.join(RANKS)}; not {raw!r}", path, line)
+    return raw
 
 
 def fail_on_value(raw, path: str | None = None, line: int | None = None) -> str:

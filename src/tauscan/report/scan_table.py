@@ -84,24 +84,61 @@ def _trust(a) -> str:
     return ""
 
 
-def capacitor_table(run, top: int | None) -> Table:
+#: a column's share of the width beyond its text: rich's padding and the rule between columns
+_COLUMN_EDGE = 3
+
+
+def _fitted(columns: list[tuple[str, str, int]], rows: list[list], width: int | None) -> list[int]:
+    """The indices of the columns that fit ``width``, most important first.
+
+    ``columns`` holds (header, justify, priority), lower priority numbers kept first; a
+    column goes whole or not at all, so that a number is never split from its unit."""
+    if width is None:
+        return list(range(len(columns)))
+    need = []
+    for j, (header, _, _) in enumerate(columns):
+        cells = [len(str(r[j])) for r in rows]
+        need.append(max([len(header), *cells]) + _COLUMN_EDGE)
+    order = sorted(range(len(columns)), key=lambda j: columns[j][2])
+    kept, used = [], 4  # the table's own edges
+    for j in order:
+        if used + need[j] <= width or not kept:
+            kept.append(j)
+            used += need[j]
+    return sorted(kept)
+
+
+def _table(title: str, columns: list[tuple[str, str, int]], rows: list[list], width: int | None,
+           no_wrap: tuple[str, ...] = ()) -> Table:
+    keep = _fitted(columns, rows, width)
+    dropped = len(columns) - len(keep)
+    if dropped:
+        title += f"  [{dropped} column{'s' if dropped > 1 else ''} left out at this width: JSON has them all]"
+    t = Table(title=title, title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
+    for j in keep:
+        name, justify, _ = columns[j]
+        t.add_column(name, justify=justify, no_wrap=True)
+    for r in rows:
+        t.add_row(*[r[j] for j in keep])
+    return t
+
+
+def capacitor_table(run, top: int | None, width: int | None = None) -> Table:
     a = run.analysis
     on_path = a.on_path_capacitors
     caps = on_path[:top] if top else on_path
     by = "transfer time constant" if a.rank == "transfer" else "open-circuit time constant"
     where = " on the signal path" if a.rank == "transfer" else ""
-    t = Table(title=f"Capacitors{where} by {by} ({len(caps)} of {len(on_path)})", title_justify="left",
-              header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     transfer = a.sum_transfer_tau_s is not None
-    columns = [("#", "right"), ("capacitor", "left"), ("input -> other", "left"), ("C", "right"),
-               ("gain", "right"), ("class", "left"), ("Miller x", "right"), ("R seen", "right"),
-               ("tau", "right"), ("share", "right")]
+    # (header, justify, priority): the essential columns first, the what-if ones last
+    columns = [("#", "right", 0), ("capacitor", "left", 0), ("input -> other", "left", 1), ("C", "right", 1),
+               ("gain", "right", 2), ("class", "left", 2), ("Miller x", "right", 7), ("R seen", "right", 8),
+               ("tau", "right", 3 if not transfer else 5), ("share", "right", 3 if not transfer else 5)]
     if transfer:
-        columns += [("signal gain", "right"), ("T", "right"), ("T share", "right")]
-    columns += [("pole share", "right"), ("f w/o it", "right"), ("f cascoded", "right")]
-    for name, justify in columns:
-        t.add_column(name, justify=justify, no_wrap=name in ("capacitor", "class"))
+        columns += [("signal gain", "right", 4), ("T", "right", 3), ("T share", "right", 3)]
+    columns += [("pole share", "right", 9), ("f w/o it", "right", 6), ("f cascoded", "right", 10)]
     waived = run.lint.waived
+    rows = []
     for k, c in enumerate(caps, start=1):
         name = c.name + (" (waived)" if c.name in waived else "")
         row = [str(k), name, f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain),
@@ -110,8 +147,8 @@ def capacitor_table(run, top: int | None) -> Table:
         if transfer:
             row += [_num(c.signal_gain), eng(c.transfer_tau_s, "s"), _pct(c.transfer_share)]
         row += [_pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
-        t.add_row(*row)
-    return t
+        rows.append(row)
+    return _table(f"Capacitors{where} by {by} ({len(caps)} of {len(on_path)})", columns, rows, width)
 
 
 def off_path_block(run, top: int | None) -> list:
@@ -125,22 +162,23 @@ def off_path_block(run, top: int | None) -> list:
     return [Text(f"Off the signal path ({len(off)}; transfer time constant 0): {names}{more}", style="dim")]
 
 
-def node_table(run, top: int | None) -> Table:
+def node_table(run, top: int | None, width: int | None = None) -> Table:
     a = run.analysis
     nodes = a.nodes[:top] if top else a.nodes
-    t = Table(title=f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     transfer = a.sum_transfer_tau_s is not None
-    names = ["node", "tau", "share", "Miller share"] + (["T", "T share", "signal Miller", "path"] if transfer else []) + [""]
-    for name in names:
-        t.add_column(name, justify="left" if name in ("node", "", "path") else "right")
+    columns = [("node", "left", 0), ("tau", "right", 1), ("share", "right", 1), ("Miller share", "right", 3)]
+    if transfer:
+        columns += [("T", "right", 0), ("T share", "right", 0), ("signal Miller", "right", 2), ("path", "left", 2)]
+    columns += [("flag", "left", 1)]
+    rows = []
     for n in nodes:
-        flag = Text("Miller-dominated", style="bold magenta") if n.miller_dominated else Text("")
+        flag = Text("Miller-dominated", style="bold magenta") if n.miller_dominated else Text("-")
         row = [n.node, eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share)]
         if transfer:
             row += [eng(n.transfer_tau_s, "s"), _pct(n.transfer_share), _pct(n.signal_miller_share),
                     "signal" if n.on_signal_path else "off"]
-        t.add_row(*row, flag)
-    return t
+        rows.append(row + [flag])
+    return _table(f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", columns, rows, width)
 
 
 def findings_block(run) -> list:
@@ -164,13 +202,13 @@ def findings_block(run) -> list:
     return out
 
 
-def renderables(run, top: int | None = 20) -> Group:
+def renderables(run, top: int | None = 20, width: int | None = None) -> Group:
     a = run.analysis
     head = Text.assemble((a.title or "", "bold"), f"  {run.request.netlist}")
     if a.source:
         head.append(f"  source {a.source}" + (f", probe {a.probe}" if a.probe else ""))
-    parts = [head, summary(run), *band_block(run), capacitor_table(run, top), *off_path_block(run, top),
-             node_table(run, top)]
+    parts = [head, summary(run), *band_block(run), capacitor_table(run, top, width), *off_path_block(run, top),
+             node_table(run, top, width)]
     parts.extend(findings_block(run))
     parts.append(Text("First-order estimates from device models: they point where to look, not a substitute for simulation.", style="dim"))
     return Group(*parts)
@@ -179,7 +217,7 @@ def renderables(run, top: int | None = 20) -> Group:
 def render(runs: list, top: int | None = 20, width: int = 140) -> str:
     console = text_console(width)
     for run in runs:
-        console.print(renderables(run, top))
+        console.print(renderables(run, top, width))
     return console.export_text()
 
 
@@ -190,4 +228,4 @@ def print_to_terminal(runs: list, top: int | None = 20) -> None:
     if not console.is_terminal:
         console = Console(width=160)
     for run in runs:
-        console.print(renderables(run, top))
+        console.print(renderables(run, top, console.width))

@@ -4,7 +4,8 @@ process that imports numpy and scipy, reads and splits the file, and does one sp
 its conductance matrix.
 
 Run: ``python benchmarks/bench_scale.py [--kinds chain,mesh] [--lines 10000,50000,200000]``
-(add 1000000 for the largest run).  Each scan and each baseline runs in its own process,
+(add 1000000 for the largest run); ``--band both`` runs each scan with the mid-band search
+and the transfer time constants (auto) and without them (dc), to show what they cost.  Each scan and each baseline runs in its own process,
 so peak resident memory is per run.  The scan is the real pipeline (``tauscan scan``'s
 stages) followed by the terminal table and, timed apart, the JSON report.
 """
@@ -30,14 +31,14 @@ def _peak_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def _child_scan(path: str) -> dict:
+def _child_scan(path: str, band: str = "auto") -> dict:
     start = time.perf_counter()
     from tauscan.gcpause import paused_gc
     from tauscan.pipeline import ScanRequest, scan
     from tauscan.report import scan_json, scan_table
 
     imported = time.perf_counter() - start
-    run = scan(ScanRequest(path))
+    run = scan(ScanRequest(path, band=(band, None)))
     times = dict(run.timings)
     t = time.perf_counter()
     with paused_gc():  # as the command line renders its reports
@@ -83,39 +84,44 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--kinds", default="chain,mesh")
     parser.add_argument("--lines", default="10000,50000,200000")
-    parser.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
+    parser.add_argument("--band", default="auto",
+                        help="auto (the default: pass-band sweep, mid-band states and transfer time constants), "
+                             "dc (the DC circuit, no band search), or both to print the two side by side")
+    parser.add_argument("--child", nargs=3, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
-        mode, path = args.child
-        print(json.dumps(_child_scan(path) if mode == "scan" else _child_baseline(path)))
+        mode, path, band = args.child
+        print(json.dumps(_child_scan(path, band) if mode == "scan" else _child_baseline(path)))
         return
     from netlist_gen import chain_file
 
     heads = ["read", "op", "linearize", "analyze", "lint", "table"]
-    print(f"{'kind':>5} {'lines':>8} " + " ".join(f"{h:>9}" for h in heads)
+    bands = ["auto", "dc"] if args.band == "both" else [args.band]
+    print(f"{'kind':>5} {'band':>4} {'lines':>8} " + " ".join(f"{h:>9}" for h in heads)
           + f" {'total s':>8} {'peak MB':>8} {'bare s':>7} {'ratio':>6} {'json s':>7}")
     for kind in args.kinds.split(","):
-        previous = None
+        previous: dict[str, tuple[int, float]] = {}
         for lines in (int(x) for x in args.lines.split(",")):
             with chain_file(lines, kind) as path:
                 count = sum(1 for _ in open(path))
                 out = {}
-                for mode in ("scan", "baseline"):
-                    res = subprocess.run([sys.executable, __file__, "--child", mode, path], capture_output=True,
-                                         text=True, check=True)
+                for mode in ["baseline"] + bands:
+                    res = subprocess.run([sys.executable, __file__, "--child", "baseline" if mode == "baseline" else "scan",
+                                          path, mode], capture_output=True, text=True, check=True)
                     out[mode] = json.loads(res.stdout)
-            scan = out["scan"]
-            t = scan["times"]
-            total = scan["total"]
             bare = out["baseline"]["seconds"]
-            print(f"{kind:>5} {count:>8} " + " ".join(f"{t[s]:>9.2f}" for s in STAGES)
-                  + f" {total:>8.2f} {scan['peak_mb']:>8.0f} {bare:>7.2f} {total / bare:>6.1f} {scan['json_s']:>7.2f}",
-                  flush=True)
-            if previous is not None:
-                pl, pt = previous
-                print(f"{'':>14} growth exponent of the total since {pl} lines: "
-                      f"{math.log(total / pt) / math.log(count / pl):.2f}", flush=True)
-            previous = (count, total)
+            for band in bands:
+                scan = out[band]
+                t = scan["times"]
+                total = scan["total"]
+                print(f"{kind:>5} {band:>4} {count:>8} " + " ".join(f"{t[s]:>9.2f}" for s in STAGES)
+                      + f" {total:>8.2f} {scan['peak_mb']:>8.0f} {bare:>7.2f} {total / bare:>6.1f} {scan['json_s']:>7.2f}",
+                      flush=True)
+                if band in previous:
+                    pl, pt = previous[band]
+                    print(f"{'':>19} growth exponent of the total since {pl} lines: "
+                          f"{math.log(total / pt) / math.log(count / pl):.2f}", flush=True)
+                previous[band] = (count, total)
     print("total: import + every stage + the table; json: writing the JSON report besides (not in the total)")
 
 

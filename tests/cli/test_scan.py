@@ -61,7 +61,7 @@ def test_csv_columns():
 def test_markdown_and_top():
     result = run_cli("scan", SENSOR, "--format", "markdown", "--top", "3")
     assert result.returncode == 0
-    assert "### Capacitors (3 of 12)" in result.stdout
+    assert "### Capacitors on the signal path by transfer time constant (3 of 8)" in result.stdout
     assert "| # | capacitor |" in result.stdout
     assert "never replace simulation" in result.stdout
 

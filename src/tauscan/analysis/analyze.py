@@ -106,9 +106,10 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     warnings.extend(found.notes)
     unstable = found.unstable()
     shares = np.full(len(kept.records), np.nan)
-    if found.right is not None and found.left is not None and len(kept.records):
-        shares = poles_mod.pole_shares(work.c, found.right, found.left, kept.a_rows, kept.b_rows, kept.farads)
     dominant = found.dominant
+    # pole shares refer to the dominant pole: none when the only candidate is unstable
+    if dominant is not None and found.right is not None and found.left is not None and len(kept.records):
+        shares = poles_mod.pole_shares(work.c, found.right, found.left, kept.a_rows, kept.b_rows, kept.farads)
     tt = None
     if out_probe is not None:
         tt = transfer_table(wfactors, work.n_nodes, kept.raw_a, kept.raw_b, kept.farads,

@@ -2,7 +2,8 @@
 inductor in it (short or open): the mid-band circuit.
 
 1. The exact transfer H(j 2 pi f) of the circuit as read is swept upward from well below
-   its slowest time constant until it has fallen far below its peak; the pass band is the
+   its slowest time constant until it has fallen far below its peak and rolls off steadily
+   (a notch, such as an undamped testbench resonance, is swept past); the pass band is the
    contiguous range around the peak where |H| >= peak / sqrt 2, its edges f_low (0 when it
    reaches DC) and f_high, refined on the exact transfer; f_mid is their geometric mean.
 2. Each capacitor and inductor gets a state at f_mid from its own corner with the
@@ -46,8 +47,10 @@ SPARSE_RATIO = 4.0
 #: The sweep starts this far below the open-circuit estimate of the circuit as read (the
 #: sum of time constants bounds the slowest pole: |p_min| >= 1 / b1 for real poles).
 START_BELOW = 30.0
-#: The sweep stops two points after the transfer has fallen this far below the -3 dB level.
+#: The sweep may stop once the transfer is this far below the -3 dB level (see :class:`_Tail`).
 STOP_BELOW = 10.0
+#: A transfer flat this many decades far below its peak has reached a feed-through floor.
+FLOOR_DECADES = 3.0
 #: Lowest frequency the sweep goes down to looking for a lower edge.
 F_FLOOR_HZ = 1e-21
 #: Rounds of the state iteration before it is given up with a warning.
@@ -165,6 +168,38 @@ def _equilibrated_solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return c * y
 
 
+class _Tail:
+    """When the sweep may stop: the transfer lies far below its peak and rolls off steadily
+    (the same slope, at least half a decade per decade, over the last three points), or it
+    has stayed flat far below the peak for FLOOR_DECADES (a feed-through floor).  A notch
+    (an undamped resonance of a testbench's LC, a zero) falls fast and then rises again:
+    its slope changes from point to point, and the sweep goes on past it."""
+
+    def __init__(self) -> None:
+        self.points: list[tuple[float, float]] = []  # (log10 f, log10 |H|) far below the peak
+        self.steady = 0
+
+    def done(self, f: float, env: float, peak: float) -> bool:
+        if f <= 0 or env >= peak / (math.sqrt(2) * STOP_BELOW):
+            self.points.clear()
+            self.steady = 0
+            return False
+        self.points.append((math.log10(f), math.log10(max(env, 1e-300))))
+        if len(self.points) >= 3:
+            (f0, m0), (f1, m1), (f2, m2) = self.points[-3:]
+            s1, s2 = (m1 - m0) / (f1 - f0), (m2 - m1) / (f2 - f1)
+            if s1 < -0.5 and s2 < -0.5 and abs(s2 - s1) < 0.2 * max(abs(s1), abs(s2)):
+                self.steady += 1
+            else:
+                self.steady = 0
+            if self.steady >= 2 or env == 0.0:
+                return True
+            flat = [m for fk, m in self.points if fk >= f2 - FLOOR_DECADES]
+            if self.points[0][0] <= f2 - FLOOR_DECADES and max(flat) - min(flat) < 0.1:
+                return True
+        return False
+
+
 @dataclass
 class Passband:
     """The pass band of the transfer to the probe, on the circuit as read."""
@@ -207,7 +242,7 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
         values.append(watch(x0).astype(kind))
     peak = float(np.abs(values[0]).max(initial=0.0)) if values else 0.0
     f = start_hz
-    below = 0
+    tail = _Tail()
     last = None
     while f <= top_hz:
         x = sweep(f)
@@ -217,12 +252,9 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
             freqs.append(f)
             values.append(v.astype(kind))
             env = float(np.abs(v).max(initial=0.0))
-            if env > peak:
-                peak, below = env, 0
-            elif env < peak / (math.sqrt(2) * STOP_BELOW):
-                below += 1
-                if below >= 2:
-                    break
+            peak = max(peak, env)
+            if tail.done(f, env, peak):
+                break
             # across a flat stretch (within 1 % over a step) of a large circuit, stride
             # further: each point is a factorization, and the edges are refined afterwards
             if not sweep.dense and last is not None and last > 0 and abs(math.log(max(env, 1e-300) / last)) < 0.01:
@@ -246,6 +278,8 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
     resp.known.update({fk: complex(hk) for fk, hk in zip(freqs, h)})
     kp = int(np.argmax(mag))
     top = float(mag[kp])
+    if 0 < kp < len(freqs) - 1 and freqs[kp - 1] > 0:
+        top = max(top, _peak(resp, freqs[kp - 1: kp + 2], mag[kp - 1: kp + 2], 6 if resp.dense else 1))
     level = top / math.sqrt(2)
     refine = _refine if resp.dense else _refine_sloped
     f_high = None
@@ -271,6 +305,36 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
                      else _refine_sloped(resp, level, hi, lo, v_hi, v_lo)) or hi
             break
     return Passband(probe, f_low, f_high, top, dict(resp.known), freqs[-1], not sweep.dense)
+
+
+def _peak(resp: Response, f3, m3, rounds: int) -> float:
+    """The maximum of |H| near an interior sweep maximum (three points around it): the vertex
+    of the parabola through log|H| against log f, evaluated on the exact transfer and
+    re-fitted ``rounds`` times.  The -3 dB level is taken from the true peak, not the grid's
+    (six points a decade miss a broad peak by a few tenths of a per cent)."""
+    xs = [math.log(f) for f in f3]
+    ys = [math.log(max(m, 1e-300)) for m in m3]
+    best = max(m3)
+    for _ in range(rounds):
+        (x0, x1, x2), (y0, y1, y2) = xs, ys
+        den = (x0 - x1) * (x0 - x2) * (x1 - x2)
+        a = (x2 * (y1 - y0) + x1 * (y0 - y2) + x0 * (y2 - y1)) / den if den else 0.0
+        if a >= 0:
+            break
+        b = (x2 * x2 * (y0 - y1) + x1 * x1 * (y2 - y0) + x0 * x0 * (y1 - y2)) / den
+        xv = min(max(-b / (2 * a), x0), x2)
+        if min(abs(xv - x0), abs(xv - x1), abs(xv - x2)) < 1e-9:
+            break
+        mv = abs(resp(math.exp(xv)))
+        if not math.isfinite(mv):
+            break
+        best = max(best, mv)
+        # keep the three points around the highest one
+        pts = sorted(zip(xs + [xv], ys + [math.log(max(mv, 1e-300))]))
+        k = max(range(len(pts)), key=lambda i: pts[i][1])
+        k = min(max(k, 1), len(pts) - 2)
+        (xs, ys) = map(list, zip(*pts[k - 1: k + 2]))
+    return best
 
 
 # -- states ------------------------------------------------------------------------------------

@@ -55,7 +55,12 @@ class Poles:
 
     @property
     def dominant(self) -> complex | None:
-        return complex(self.values[self.dominant_index]) if len(self.values) else None
+        """The dominant pole; None when there is none, or when the one found lies in the right
+        half-plane (an unstable pole is a finding of its own, never a bandwidth)."""
+        if not len(self.values):
+            return None
+        p = complex(self.values[self.dominant_index])
+        return None if p.real > UNSTABLE_RTOL * abs(p) else p
 
     def unstable(self) -> list[complex]:
         """Poles in the right half-plane (beyond round-off)."""

@@ -204,6 +204,20 @@ class Analysis:
 
         return pd.DataFrame([n.to_json() for n in self.nodes], columns=NODE_COLUMNS)
 
+    def summary_json(self) -> dict:
+        """The headline figures (the JSON ``summary``)."""
+        return {
+            "sum_tau_s": _finite(self.sum_tau_s),
+            "octc_hz": _finite(self.octc_hz),
+            "dominant_pole_hz": _finite(self.dominant_pole_hz),
+            "dominant_pole_q": _finite(self.dominant_q),
+            "f3db_hz": _finite(self.f3db_hz),
+            "estimate_error": _finite(self.estimate_error),
+            "dc_gain": _finite(self.dc_gain),
+            "elmore_hz": _finite(self.elmore_hz),
+            "sum_transfer_tau_s": _finite(self.sum_transfer_tau_s),
+        }
+
     def to_json(self, waived: Mapping[str, str] | None = None) -> dict:
         """The JSON form; ``waived``: capacitor name -> waiver reason (the lint stage's)."""
         waived = waived or {}
@@ -215,17 +229,7 @@ class Analysis:
             "drive_unit": self.drive_unit,
             "rank": self.rank,
             "band": self.band.to_json() if self.band is not None else None,
-            "summary": {
-                "sum_tau_s": _finite(self.sum_tau_s),
-                "octc_hz": _finite(self.octc_hz),
-                "dominant_pole_hz": _finite(self.dominant_pole_hz),
-                "dominant_pole_q": _finite(self.dominant_q),
-                "f3db_hz": _finite(self.f3db_hz),
-                "estimate_error": _finite(self.estimate_error),
-                "dc_gain": _finite(self.dc_gain),
-                "elmore_hz": _finite(self.elmore_hz),
-                "sum_transfer_tau_s": _finite(self.sum_transfer_tau_s),
-            },
+            "summary": self.summary_json(),
             "capacitors": [c.to_json(waived.get(c.name)) for c in self.capacitors],
             "nodes": [n.to_json() for n in self.nodes],
             "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],

@@ -87,8 +87,9 @@ def transfer_table(factors: Factors, n_nodes: int, a_rows: np.ndarray, b_rows: n
         np.add.at(node_tau, rows[ok], part[ok])
         np.add.at(node_miller, rows[ok], mil[ok])
     n_scale = np.abs(node_tau).max(initial=0.0)
-    vn, wn = np.abs(v[:n_nodes]), np.abs(w[:n_nodes])
-    node_on = (np.abs(node_tau) > OFF_PATH * n_scale) & (vn > OFF_PATH * v_scale) & (wn > OFF_PATH * w_scale)
+    # a node whose own voltage does not move still takes charge through a capacitor whose
+    # other end does (C (v_n - v_m) with v_n = 0): it is on the path when its T_n is not nil
+    node_on = np.abs(node_tau) > OFF_PATH * n_scale
     node_tau = np.where(node_on, node_tau, 0.0)
     node_miller = np.where(node_on, node_miller, 0.0)
     total = complex(w @ (factors.c @ v)) / h0

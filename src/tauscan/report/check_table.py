@@ -30,25 +30,34 @@ def renderables(runs: list, code: int) -> Group:
     corners = any(run.request.corner for run in runs)
     worst = worst_corners(runs)
     overview = Table(title="Netlists", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
-    columns = ["netlist"] + (["corner"] if corners else []) + ["estimate", "-3 dB", "errors", "warnings", "notes"]
+    columns = (["netlist"] + (["corner"] if corners else [])
+               + ["source -> probe", "signal-path estimate", "-3 dB", "errors", "warnings", "notes"])
     for col in columns:
-        overview.add_column(col, justify="left" if col in ("netlist", "corner") else "right")
+        overview.add_column(col, justify="left" if col in ("netlist", "corner", "source -> probe") else "right")
     for k, run in enumerate(runs):
         a = run.analysis
         counts = {s: sum(1 for f in run.lint.findings if f.severity == s) for s in ("error", "warning", "note")}
         cells = [run.request.netlist]
         if corners:
             cells.append((run.request.corner or "") + (" (worst)" if k in worst else ""))
-        cells += [eng(a.octc_hz, "Hz"), eng(a.f3db_hz, "Hz"), str(counts["error"]), str(counts["warning"]), str(counts["note"])]
+        path = f"{a.source} -> {a.probe}" if a.source and a.probe else "-"
+        estimate = eng(a.elmore_hz, "Hz") if a.elmore_hz else eng(a.octc_hz, "Hz") + " (open-circuit)"
+        cells += [path, estimate, eng(a.f3db_hz, "Hz"), str(counts["error"]), str(counts["warning"]), str(counts["note"])]
         overview.add_row(*cells, style="bold" if k in worst else None)
     parts = [overview]
+    for run in runs:
+        a = run.analysis
+        if a.probe:
+            parts.append(Text(f"{run.request.netlist}: probe {a.probe} ({a.probe_reason or 'as asked'}), "
+                              f"gain {a.drive_unit or 'from ' + str(a.source)}; "
+                              + (a.band.note if a.band is not None else ""), style="dim"))
     findings = [f for run in runs for f in run.lint.findings]
     if findings:
         t = Table(title="Findings", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
         for col in ("severity", "rule", "where", "message"):
             t.add_column(col, overflow="fold")
         for f in findings:
-            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f"{f.file}:{f.line or ''}", f.message)
+            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f.file + (f":{f.line}" if f.line else ""), f.message)
         parts.append(t)
     waivers = [w for run in runs for w in run.lint.waivers]
     if waivers:

@@ -49,6 +49,17 @@ def document(runs: list) -> dict:
                 "locations": [{"physicalLocation": location, "logicalLocations": [{"name": f.subject}]}],
                 "properties": {k: v for k, v in f.numbers.items() if isinstance(v, (int, float, str))},
             })
+    # the figures each finding was judged on, per netlist (SARIF property bags are free-form)
+    analyses = []
+    for run in runs:
+        a = run.analysis
+        analyses.append({
+            "netlist": _uri(run.request.netlist),
+            "source": a.source, "probe": a.probe, "probe_reason": a.probe_reason, "drive_unit": a.drive_unit,
+            "rank": a.rank, "summary": a.summary_json(),
+            "band": a.band.to_json() if a.band is not None else None,
+            "off_signal_path": [c.name for c in a.off_path_capacitors],
+        })
     return {
         "$schema": SCHEMA,
         "version": "2.1.0",
@@ -57,6 +68,7 @@ def document(runs: list) -> dict:
             "artifacts": [{"location": {"uri": uri}} for uri in artifacts],
             "results": results,
             "invocations": [{"executionSuccessful": True}],
+            "properties": {"analyses": analyses},
         }],
     }
 

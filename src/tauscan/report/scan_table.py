@@ -188,7 +188,7 @@ def findings_block(run) -> list:
         for col in ("severity", "rule", "where", "message"):
             t.add_column(col, overflow="fold")
         for f in run.lint.findings:
-            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f"{f.file}:{f.line or ''}", f.message)
+            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f.file + (f":{f.line}" if f.line else ""), f.message)
         out.append(t)
     if run.lint.waivers:
         t = Table(title="Waivers in use", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)

@@ -198,6 +198,8 @@ class Circuit:
     temp_c: float | None = None
     global_nodes: set[str] = field(default_factory=set)
     warnings: list[str] = field(default_factory=list)
+    #: overrides (--param, a corner) naming no .param of the netlist: name -> the message
+    unknown_params: dict[str, str] = field(default_factory=dict)
 
     @property
     def elements(self) -> ElementView:

@@ -13,11 +13,7 @@ import sys
 from collections.abc import Sequence
 
 from tauscan import __version__
-from tauscan.errors import SelectionError, SettingsError, TauscanError
-
-EXIT_OK = 0
-EXIT_FINDINGS = 1
-EXIT_ERROR = 2
+from tauscan.errors import EXIT_ERROR, EXIT_FINDINGS, EXIT_OK, SelectionError, SettingsError, TauscanError
 
 
 class _Parser(argparse.ArgumentParser):

@@ -19,9 +19,10 @@ from tauscan.errors import SettingsError, TauscanError
 _FOLDER_LOCK = threading.Lock()
 
 
-def scan_in_folder(request, folder: str):
-    """One scan on a worker, in ``folder`` (the client's working folder)."""
-    from tauscan.pipeline import scan_in_worker
+def scan_in_folder(request, folder: str, batch: bool = False):
+    """One scan on a worker, in ``folder`` (the client's working folder); in a ``batch`` an
+    error in the input comes back as a failure record, as a local batch has it."""
+    from tauscan.pipeline import scan_in_worker, scan_in_worker_or_failure
 
     with _FOLDER_LOCK:
         previous = os.getcwd()
@@ -31,7 +32,7 @@ def scan_in_folder(request, folder: str):
             raise SettingsError(f"--cluster: a worker cannot see the folder {folder} "
                                 "(workers need the same files at the same paths)") from None
         try:
-            return scan_in_worker(request)
+            return scan_in_worker_or_failure(request) if batch else scan_in_worker(request)
         finally:
             os.chdir(previous)
 
@@ -50,7 +51,7 @@ def run_on_cluster(requests: list, address: str, timeout: float = 15.0) -> list:
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise SettingsError(f"--cluster {address}: cannot reach the scheduler ({reason})") from None
     try:
-        futures = client.map(scan_in_folder, requests, folder=os.getcwd(), pure=False)
+        futures = client.map(scan_in_folder, requests, folder=os.getcwd(), batch=len(requests) > 1, pure=False)
         return client.gather(futures)
     finally:
         client.close()

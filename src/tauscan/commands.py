@@ -5,8 +5,10 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import os
+import sys
 from collections.abc import Callable, Sequence
 
+from tauscan.errors import EXIT_ERROR
 from tauscan.report import formats
 
 
@@ -95,9 +97,14 @@ def parse_params(items: Sequence[str]) -> dict[str, float]:
     from tauscan.errors import SettingsError
     from tauscan.units import parse_assignment
 
+    from tauscan.units import OptionValueError
+
     out: dict[str, float] = {}
     for item in items:
-        pair = parse_assignment(item)
+        try:
+            pair = parse_assignment(item)
+        except OptionValueError as exc:
+            raise SettingsError(f"--param {item!r}: {exc}") from None
         if pair is None:
             raise SettingsError(f"--param expects NAME=VALUE with a number, not {item!r}")
         out[pair[0]] = pair[1]
@@ -173,7 +180,7 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
 def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0):
     """Scan every request: on a Dask cluster when one is named, else in worker processes
     when there are several and jobs allow."""
-    from tauscan.pipeline import scan, scan_in_worker
+    from tauscan.pipeline import scan, scan_in_worker_or_failure, scan_or_failure
     from tauscan.report.progress import StageProgress
 
     if cluster:
@@ -186,15 +193,39 @@ def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float
         from concurrent.futures import ProcessPoolExecutor
 
         with ProcessPoolExecutor(max_workers=min(workers, len(requests))) as pool:
-            return list(pool.map(scan_in_worker, requests))
+            return list(pool.map(scan_in_worker_or_failure, requests))
     with StageProgress() as progress:
-        return [scan(r, progress) for r in requests]
+        if len(requests) == 1:  # one netlist: its error is the command's
+            return [scan(requests[0], progress)]
+        return [scan_or_failure(r, progress) for r in requests]
+
+
+def _split(results: list) -> tuple[list, list]:
+    """(runs, failures) of a batch; each failure's located error is printed to stderr."""
+    from tauscan.pipeline import ScanFailure
+
+    failures = [r for r in results if isinstance(r, ScanFailure)]
+    runs = [r for r in results if not isinstance(r, ScanFailure)]
+    # a parameter override that no netlist of the batch has is a typo, not a corner that
+    # one netlist happens not to use
+    if runs:
+        unknown = set.intersection(*(set(r.unknown_params) for r in runs))
+        if unknown:
+            from tauscan.errors import SettingsError
+
+            name = sorted(unknown)[0]
+            raise SettingsError(runs[0].unknown_params[name], runs[0].request.netlist)
+    for f in failures:
+        print(f.rendered, file=sys.stderr)
+    return runs, failures
 
 
 def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report.output import write_bytes, write_text
 
-    runs = _run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout)
+    runs, failures = _split(_run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout))
+    if not runs:
+        return EXIT_ERROR
     top = args.top or None
     fmt = args.format
     if fmt == "table" and args.output is None:
@@ -202,32 +233,34 @@ def cmd_scan(args: argparse.Namespace) -> int:
 
         scan_table.print_to_terminal(runs, top)
     else:
-        write_text(_render("scan", fmt, runs, top), args.output, protect=tuple(args.netlist))
+        write_text(_render("scan", fmt, runs, top, failures=failures), args.output, protect=tuple(args.netlist))
     if args.plot:
         from tauscan.report import plot
 
         freqs, mags = runs[0].response_curve()
         write_bytes(plot.render(runs[0], freqs, mags, args.plot), args.plot, protect=tuple(args.netlist))
-    return 0
+    return EXIT_ERROR if failures else 0
 
 
-def _render(command: str, fmt: str, runs: list, top: int | None, exit_code: int | None = None) -> str:
+def _render(command: str, fmt: str, runs: list, top: int | None, exit_code: int | None = None,
+            failures: list | None = None) -> str:
     from tauscan.gcpause import paused_gc
 
     with paused_gc():  # a record per capacitor: many objects, no cycles
-        return formats.render(command, fmt, runs, top, exit_code)
+        return formats.render(command, fmt, runs, top, exit_code, failures)
 
 
 def cmd_check(args: argparse.Namespace) -> int:
     from tauscan.lint.gate import exit_code
     from tauscan.report.output import write_text
 
-    runs = _run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout)
-    code = max(exit_code(r.lint.findings, r.settings.fail_on) for r in runs)
+    runs, failures = _split(_run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout))
+    code = max([exit_code(r.lint.findings, r.settings.fail_on) for r in runs] + [EXIT_ERROR if failures else 0])
     if args.format == "table" and args.output is None:
         from tauscan.report import check_table
 
-        check_table.print_to_terminal(runs, code)
+        if runs:
+            check_table.print_to_terminal(runs, code)
         return code
-    write_text(_render("check", args.format, runs, None, code), args.output, protect=tuple(args.netlist))
+    write_text(_render("check", args.format, runs, None, code, failures), args.output, protect=tuple(args.netlist))
     return code

@@ -11,7 +11,7 @@ import re
 from dataclasses import dataclass, field
 
 from tauscan.errors import SettingsError
-from tauscan.units import parse_assignment
+from tauscan.units import OptionValueError, parse_assignment
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.-]*\Z")
 
@@ -40,7 +40,10 @@ def parse_corner(text: str) -> Corner:
         if eq and key.strip().lower() == "lib":
             lib = check_section(raw.strip(), f"--corner {name}")
             continue
-        pair = parse_assignment(item)
+        try:
+            pair = parse_assignment(item)
+        except OptionValueError as exc:
+            raise SettingsError(f"--corner {name}: {exc}") from None
         if pair is None:
             raise SettingsError(f"--corner {name}: {item!r} is not PARAM=VALUE with a number")
         key, value = pair

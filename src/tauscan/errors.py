@@ -8,6 +8,10 @@ code 2 in exactly one place (:func:`tauscan.cli.main`).
 from __future__ import annotations
 
 
+#: Exit codes of the command line: no finding, findings, bad input or a tool error.
+EXIT_OK, EXIT_FINDINGS, EXIT_ERROR = 0, 1, 2
+
+
 class TauscanError(Exception):
     """An error in the user's input or settings, with its location.
 
@@ -115,3 +119,12 @@ class SelectionError(SettingsError):
     def for_command_line(self) -> SettingsError:
         """The same error worded with the command-line option (``--probe 'out': ...``)."""
         return SettingsError(f"--{self.role} {self.name!r}: {self.reason}")
+
+
+def did_you_mean(name: str, candidates) -> str:
+    """`` (did you mean 'x'?)`` naming the closest of ``candidates`` (difflib), or ""."""
+    import difflib
+
+    close = difflib.get_close_matches(name.lower(), sorted({str(c).lower() for c in candidates}), n=1, cutoff=0.6)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+

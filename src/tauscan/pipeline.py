@@ -15,6 +15,7 @@ from tauscan.analysis import AnalysisSettings, analyze_network
 from tauscan.analysis.band import BandRequest
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
+from tauscan.errors import SelectionError, TauscanError
 from tauscan.gcpause import paused_gc
 from tauscan.lint import settings as lint_settings
 from tauscan.lint.gate import LintResult, run_rules
@@ -58,6 +59,8 @@ class ScanRun:
     settings: lint_settings.LintSettings
     #: seconds per stage: read, operating point, linearize, analyze, lint
     timings: dict[str, float] = field(default_factory=dict)
+    #: overrides the netlist has no .param for: name -> message (a batch decides whether that is an error)
+    unknown_params: dict[str, str] = field(default_factory=dict)
 
     def response_curve(self) -> tuple[np.ndarray | None, np.ndarray | None]:
         """(freqs in Hz, |H|) of the sweep the request asked for (``curve_points``), or (None, None)."""
@@ -108,6 +111,48 @@ def band_request(request: ScanRequest, settings: lint_settings.LintSettings) -> 
     return BandRequest(mode, freq, tuple(short) + tuple(request.short), tuple(opened) + tuple(request.open))
 
 
+@dataclass
+class ScanFailure:
+    """A netlist of a batch that stopped with an error (the others still get their reports)."""
+
+    request: ScanRequest
+    #: the located one-line error, then the source line and a caret (as the command line prints it)
+    rendered: str
+    headline: str
+    file: str | None
+    line: int | None
+    col: int | None
+
+    @property
+    def netlist(self) -> str:
+        return self.request.netlist
+
+    def to_json(self) -> dict:
+        return {"netlist": self.netlist, "corner": self.request.corner, "message": self.headline,
+                "file": self.file, "line": self.line, "column": self.col}
+
+
+def failure_of(request: ScanRequest, exc: TauscanError) -> ScanFailure:
+    if isinstance(exc, SelectionError):
+        exc = exc.for_command_line()
+    return ScanFailure(request, exc.render(), exc.headline(), exc.file, exc.line, exc.col)
+
+
+def scan_or_failure(request: ScanRequest, progress=None) -> "ScanRun | ScanFailure":
+    """:func:`scan`, with an error in the user's input returned as a :class:`ScanFailure`."""
+    try:
+        return scan(request, progress)
+    except TauscanError as exc:
+        return failure_of(request, exc)
+
+
+def scan_in_worker_or_failure(request: ScanRequest) -> "ScanRun | ScanFailure":
+    try:
+        return scan_in_worker(request)
+    except TauscanError as exc:
+        return failure_of(request, exc)
+
+
 def scan_in_worker(request: ScanRequest) -> ScanRun:
     """One scan in a worker process (no progress display).  Only what the reports read
     travels back: the circuit and the operating point stay behind (pickling them cost more
@@ -125,7 +170,8 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
     timed = _Timed(progress or _NoProgress())
     settings = settings_for(request)
     with timed.stage("read", f"reading {os.path.basename(request.netlist)}") as advance:
-        circuit = read_netlist(request.netlist, request.params, progress=advance, lib_section=request.lib_section)
+        circuit = read_netlist(request.netlist, request.params, progress=advance, lib_section=request.lib_section,
+                               unknown_params="record")
     with timed.stage("operating point", "operating point"):
         op = operating_point(circuit, request.temp_c, request.op_file)
     with timed.stage("linearize", "small-signal network"):
@@ -138,4 +184,4 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
         analysis.warnings.extend(circuit.warnings)
     with timed.stage("lint", "lint rules"):
         lint = run_rules(analysis, circuit, op, settings, settings.probe is not None)
-    return ScanRun(request, circuit, op, analysis, lint, settings, timed.seconds)
+    return ScanRun(request, circuit, op, analysis, lint, settings, timed.seconds, dict(circuit.unknown_params))

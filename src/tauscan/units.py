@@ -98,14 +98,81 @@ def eng(value: float | None, unit: str = "", digits: int = 3) -> str:
     return f"{text} {prefix}{unit}"
 
 
+_OPTION_NUMBER = re.compile(r"\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*([A-Za-z\u00b5]*)\s*\Z")
+#: SI prefixes before a unit, case-sensitive (M mega, m milli)
+_SI = {"T": 12, "G": 9, "M": 6, "k": 3, "K": 3, "": 0, "m": -3, "u": -6, "\u00b5": -6, "n": -9, "p": -12,
+       "f": -15, "a": -18}
+
+
+class OptionValueError(ValueError):
+    """A value an option or a setting gives that tauscan will not guess at."""
+
+
+def parse_option_value(text: str, unit: str = "") -> float:
+    """A number that an option or a setting gives (not a netlist's): SPICE style (``10meg``,
+    ``100k``, ``2.5e6``) or SI with its unit (``10MHz``, ``10 kHz``, ``100mHz``), strictly.
+
+    The netlist reader follows SPICE and drops letters it does not know (``10pF``); an
+    option is where a threshold is set, so nothing is dropped: a bare ``M`` (milli to SPICE,
+    mega to everyone else) and a suffix that would be ignored (``1x``, ``50kk``) are refused
+    with :class:`OptionValueError`, whose message shows both spellings.
+
+    >>> parse_option_value("10MHz", "Hz"), parse_option_value("10meg", "Hz"), parse_option_value("100mHz", "Hz")
+    (10000000.0, 10000000.0, 0.1)
+    """
+    match = _OPTION_NUMBER.match(text)
+    if match is None:
+        raise OptionValueError(f"{text!r} is not a number")
+    mantissa, letters = match.groups()
+    digits, _, exponent = mantissa.lower().partition("e")
+
+    def scaled(shift: int) -> float:
+        return float(f"{digits}e{int(exponent or 0) + shift}")
+
+    hint = (f"write {mantissa}meg or {mantissa}M{unit} for mega, {mantissa}m or {mantissa}m{unit} for milli" if unit
+            else f"write {mantissa}meg for mega, {mantissa}m for milli")
+    if unit and letters.lower().endswith(unit.lower()) and len(letters) >= len(unit):
+        prefix = letters[: len(letters) - len(unit)]
+        if prefix.lower() == "meg":
+            return scaled(6)
+        if prefix in _SI:
+            return scaled(_SI[prefix])
+        raise OptionValueError(f"{text!r}: {prefix!r} is not an SI prefix ({hint})")
+    if not unit:  # a unit word after the scale, as netlists write them (10pF, 3kohm, 1.8V)
+        for word in _UNIT_WORDS:
+            if letters.lower().endswith(word) and len(letters) > len(word):
+                letters = letters[: len(letters) - len(word)]
+                break
+            if letters.lower() == word and word not in _SCALE:
+                letters = ""
+                break
+    low = letters.lower()
+    if low == "meg":
+        return scaled(6)
+    if letters == "M":
+        raise OptionValueError(f"{text!r} is ambiguous: SPICE reads M as milli, SI as mega; {hint}")
+    if len(letters) <= 1 and low in _SCALE_ALL:
+        return scaled(_SCALE_ALL[low])
+    what = f" {unit}" if unit else ""
+    raise OptionValueError(f"{text!r}: the suffix {letters!r} is not a scale tauscan reads (SPICE: t g meg k m u n p f a; "
+                           f"SI with the unit{what}: {mantissa}k{unit}, {mantissa}M{unit})" if unit else
+                           f"{text!r}: the suffix {letters!r} is not a scale tauscan reads (t g meg k m u n p f a)")
+
+
+_SCALE_ALL = dict(_SCALE, **{"": 0})
+#: unit words that may follow a scale in an option's value (longest first)
+_UNIT_WORDS = ("ohms", "ohm", "hz", "v", "a", "s", "h", "f")
+
+
 def parse_assignment(item: str) -> tuple[str, float] | None:
-    """``NAME=VALUE`` with a SPICE number -> (lower-case name, value); None when it is not one.
+    """``NAME=VALUE`` with a number (:func:`parse_option_value`) -> (lower-case name, value);
+    None when it is not an assignment; :class:`OptionValueError` when the value is refused.
 
     The one parser of the assignments that options and settings take (``--param``,
     ``--corner``); each caller words its own error.
     """
     name, sep, text = item.partition("=")
-    value = parse_number(text.strip()) if sep else None
-    if not sep or not name.strip() or value is None:
+    if not sep or not name.strip():
         return None
+    value = parse_option_value(text)  # OptionValueError says what is wrong with the value
     return name.strip().lower(), value

@@ -121,7 +121,8 @@ def test_sarif_required_fields(tmp_path):
     driver = run["tool"]["driver"]
     assert driver["name"] == "tauscan"
     ids = [r["id"] for r in driver["rules"]]
-    assert {"miller-node", "bandwidth-floor", "regenerative-cap", "floating-node", "bias-region", "unstable-pole"} == set(ids)
+    assert {"miller-node", "bandwidth-floor", "regenerative-cap", "floating-node", "bias-region", "unstable-pole",
+            "waiver-unused", "waiver-reason"} == set(ids)
     for rule in driver["rules"]:
         assert rule["shortDescription"]["text"] and rule["defaultConfiguration"]["level"] in ("error", "warning", "note")
     res = run["results"][0]

@@ -51,7 +51,7 @@ def test_corners_from_the_settings_file(tmp_path):
     assert [r["corner"] for r in json.loads(result.stdout)["runs"]] == ["slow", "fast"]
     (tmp_path / "tauscan.toml").write_text("[corners]\nslow = { vdd = \"fast\" }\n")
     result = run_cli("check", str(path))
-    assert result.returncode == 2 and "must be a number" in result.stderr
+    assert result.returncode == 2 and "is not a number" in result.stderr
 
 
 MODELS_LIB = """* process library with nested sections (invented values)

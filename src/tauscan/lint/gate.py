@@ -8,7 +8,7 @@ from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
 from tauscan.lint import waivers as waiver_mod
 from tauscan.lint.findings import Finding, severity_rank
-from tauscan.lint.rules import RULES
+from tauscan.lint.rules import RULES, judged_bandwidth
 from tauscan.lint.settings import LintSettings
 from tauscan.op.result import OperatingPoint
 
@@ -39,6 +39,8 @@ class LintContext:
 class LintResult:
     findings: list[Finding]
     waivers: list[waiver_mod.Waiver] = field(default_factory=list)
+    #: the bandwidth floor applied, the figure judged and the margin to it (None: no floor set)
+    floor: dict | None = None
 
     @property
     def waived(self) -> dict[str, str]:
@@ -55,7 +57,16 @@ def run_rules(analysis: Analysis, circuit: Circuit, op: OperatingPoint, settings
     for rule in RULES.values():
         findings.extend(rule.check(ctx))
     findings.sort(key=lambda f: (-severity_rank(f.severity), f.rule, f.file, f.line or 0, f.subject))
-    return LintResult(findings, sorted(used.values(), key=lambda w: w.capacitor))
+    return LintResult(findings, sorted(used.values(), key=lambda w: w.capacitor), _floor(analysis, settings))
+
+
+def _floor(a: Analysis, settings: LintSettings) -> dict | None:
+    """The floor, the figure the bandwidth-floor rule judges and the margin (figure / floor - 1)."""
+    if settings.min_bandwidth is None:
+        return None
+    figure, judged = judged_bandwidth(a)
+    margin = figure / settings.min_bandwidth - 1.0 if figure is not None else None
+    return {"floor_hz": settings.min_bandwidth, "judged_hz": figure, "judged": judged, "margin": margin}
 
 
 def exit_code(findings: list[Finding], fail_on: str) -> int:

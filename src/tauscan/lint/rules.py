@@ -9,6 +9,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from tauscan.devices import registry
+from tauscan.lint import waivers as waiver_mod
 from tauscan.lint.findings import Finding
 from tauscan.units import eng
 
@@ -113,18 +114,25 @@ def _signal_miller_nodes(ctx) -> list[Finding]:
     return found
 
 
+def judged_bandwidth(a) -> tuple[float | None, str]:
+    """The figure the bandwidth floor judges: the exact -3 dB frequency ("f3db"), else the
+    signal-path estimate ("elmore"), else the open-circuit one ("octc")."""
+    if a.f3db_hz is not None:
+        return a.f3db_hz, "f3db"
+    if a.elmore_hz is not None:
+        return a.elmore_hz, "elmore"
+    return a.octc_hz, "octc"
+
+
 def bandwidth_floor(ctx) -> list[Finding]:
     """The exact -3 dB frequency of the transfer against the floor (the signal-path
     estimate, then the open-circuit one, only where there is no exact figure)."""
     a, s = ctx.analysis, ctx.settings
     if s.min_bandwidth is None:
         return []
-    if a.f3db_hz is not None:
-        figure, what = a.f3db_hz, f"-3 dB bandwidth at {a.probe}"
-    elif a.elmore_hz is not None:
-        figure, what = a.elmore_hz, "signal-path (transfer time-constant) estimate"
-    else:
-        figure, what = a.octc_hz, "open-circuit time-constant estimate"
+    figure, kind = judged_bandwidth(a)
+    what = {"f3db": f"-3 dB bandwidth at {a.probe}", "elmore": "signal-path (transfer time-constant) estimate",
+            "octc": "open-circuit time-constant estimate"}[kind]
     if figure is None or figure >= s.min_bandwidth:
         return []
     top = next((c for c in a.capacitors if c.on_signal_path), None)
@@ -191,6 +199,24 @@ def bias_region(ctx) -> list[Finding]:
     return out
 
 
+def _waiver_problems(ctx, kind: str) -> list[Finding]:
+    s = ctx.settings
+    problems = waiver_mod.audit(ctx.analysis, ctx.circuit, s.waive, s.origin, s.waive_lines)
+    rule = "waiver-unused" if kind == "unused" else "waiver-reason"
+    return [Finding(rule, ctx.level(rule), p.file, p.line, p.subject, "{}", (p.message,))
+            for p in problems if p.kind == kind]
+
+
+def waiver_unused(ctx) -> list[Finding]:
+    """A waiver (settings glob or inline comment) that matches no capacitor."""
+    return _waiver_problems(ctx, "unused")
+
+
+def waiver_reason(ctx) -> list[Finding]:
+    """A waiver without a reason (it is not applied)."""
+    return _waiver_problems(ctx, "reason")
+
+
 RULES: dict[str, Rule] = {
     r.id: r
     for r in (
@@ -213,5 +239,11 @@ RULES: dict[str, Rule] = {
         Rule("bias-region", "warning", "Signal transistor outside its amplifying region",
              "A transistor in triode or cutoff (or a saturated or cut-off bipolar) on the signal path.",
              bias_region),
+        Rule("waiver-unused", "warning", "Waiver that matches nothing",
+             "A settings glob or an inline waiver that applies to no capacitor of the netlist (stale, or misspelt).",
+             waiver_unused),
+        Rule("waiver-reason", "warning", "Waiver without a reason",
+             "A waiver that says no reason; it is not applied until it does.",
+             waiver_reason),
     )
 }

@@ -27,7 +27,7 @@ from dataclasses import dataclass, field, replace
 
 from tauscan.errors import SettingsError
 from tauscan.lint.findings import SEVERITIES
-from tauscan.units import parse_number
+from tauscan.units import OptionValueError, parse_option_value
 
 try:  # Python 3.11+
     import tomllib
@@ -49,6 +49,7 @@ class LintSettings:
     source: str | None = None
     severity: dict = field(default_factory=dict)
     waive: dict = field(default_factory=dict)  # glob -> reason
+    waive_lines: dict = field(default_factory=dict)  # glob -> its line in the settings file
     corners: tuple = ()  # tauscan.corners.Corner, from a [corners] table
     #: ("auto" | "dc" | "fixed", frequency for "fixed")
     band: tuple = ("auto", None)
@@ -142,9 +143,12 @@ def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
         values["severity"] = dict(table)
     if "waive" in data:
         table = data["waive"]
-        if not isinstance(table, dict) or not all(isinstance(v, str) and v.strip() for v in table.values()):
+        # an empty reason is not an error here: the waiver-reason rule reports it, with its line
+        if not isinstance(table, dict) or not all(isinstance(v, str) for v in table.values()):
             raise SettingsError("waive must be a table of capacitor-name glob = reason", path, _line_of(text, "waive"))
         values["waive"] = {k.lower(): v for k, v in table.items()}
+        table_line = _line_of(text, "[tool.tauscan.waive]") or _line_of(text, "[waive]") or _line_of(text, "waive")
+        values["waive_lines"] = {k.lower(): _line_of(text, k) or table_line for k in table}
     if "band" in data:
         values["band"] = band_value(data["band"], path, _line_of(text, "band"))
     if "rank" in data:
@@ -189,35 +193,53 @@ def _corners(table, path: str, line: int | None) -> tuple:
 def _number(raw, what: str, path: str, line: int | None) -> float:
     if isinstance(raw, (int, float)) and not isinstance(raw, bool):
         return float(raw)
-    value = parse_number(raw.strip()) if isinstance(raw, str) else None
-    if value is None:
+    if not isinstance(raw, str):
         raise SettingsError(f"{what} must be a number, not {raw!r}", path, line)
+    try:
+        return parse_option_value(raw)
+    except OptionValueError as exc:
+        raise SettingsError(f"{what}: {exc}", path, line) from None
+
+
+def frequency_value(raw, what: str, path: str | None = None, line: int | None = None) -> float:
+    """A positive frequency from an option or a setting: ``100k``, ``2.5meg``, ``10MHz``,
+    ``10 kHz`` (see :func:`tauscan.units.parse_option_value`: a bare ``M`` is refused)."""
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        value = float(raw)
+    elif isinstance(raw, str):
+        try:
+            value = parse_option_value(raw, "Hz")
+        except OptionValueError as exc:
+            raise SettingsError(f"{what}: {exc}", path, line) from None
+    else:
+        value = None
+    if value is None or not value > 0 or value == float("inf"):
+        raise SettingsError(f"{what} takes a positive frequency such as 100k, 2.5meg or 10MHz, not {raw!r}", path, line)
     return value
 
 
 def bandwidth_value(raw, path: str | None = None, line: int | None = None) -> float:
-    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        value = float(raw)
-    elif isinstance(raw, str):
-        text = raw.strip()
-        if text.lower().endswith("hz"):
-            text = text[:-2]
-        value = parse_number(text)
-    else:
-        value = None
-    if value is None or value <= 0:
-        raise SettingsError(f"min-bandwidth takes a positive frequency such as 100k or 2.5meg, not {raw!r}", path, line)
-    return value
+    return frequency_value(raw, "min-bandwidth", path, line)
 
 
 def band_value(raw, path: str | None = None, line: int | None = None) -> tuple:
     """``auto``, ``dc`` or a frequency (``10k``, ``1meg``, ``2.5e6``): the mid-band circuit's choice."""
     if isinstance(raw, str) and raw.strip().lower() in ("auto", "dc"):
         return (raw.strip().lower(), None)
-    try:
-        return ("fixed", bandwidth_value(raw, path, line))
-    except SettingsError:
-        raise SettingsError(f"band takes auto, dc or a positive frequency such as 10k, not {raw!r}", path, line) from None
+    generic = f"band takes auto, dc or a positive frequency such as 10k or 10kHz, not {raw!r}"
+    if isinstance(raw, str):
+        try:
+            value = parse_option_value(raw, "Hz")
+        except OptionValueError as exc:
+            # a number with a suffix that is refused gets the reason; a word gets the choices
+            raise SettingsError(f"band: {exc}" if raw.strip()[:1].isdigit() else generic, path, line) from None
+    elif isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        value = float(raw)
+    else:
+        raise SettingsError(generic, path, line)
+    if not value > 0 or value == float("inf"):
+        raise SettingsError(generic, path, line)
+    return ("fixed", value)
 
 
 def rank_value(raw, path: str | None = None, line: int | None = None) -> str:

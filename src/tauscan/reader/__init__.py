@@ -14,16 +14,17 @@ from tauscan.reader.loader import load
 
 
 def read_netlist(path: str, params: dict[str, float] | None = None, progress=None,
-                 lib_section: str | None = None) -> Circuit:
+                 lib_section: str | None = None, unknown_params: str = "error") -> Circuit:
     """Read ``path`` (and its includes) into a flat circuit.
 
     ``params`` overrides global ``.param`` values (as ``--param`` does); ``progress(done,
     total)`` hears how many bytes of the file have been read; ``lib_section`` (a corner's)
     replaces the section of every ``.lib FILE SECTION`` card whose file has one of that name.  The file is read a chunk at
-    a time: its text is never held whole.
+    a time: its text is never held whole.  An override that names no global ``.param`` is an
+    error, or with ``unknown_params="record"`` kept in ``Circuit.unknown_params`` with a warning.
     """
     with paused_gc():  # millions of small tuples and no reference cycles
-        return flatten(load(path, progress, lib_section), params)
+        return flatten(load(path, progress, lib_section), params, unknown_params)
 
 
 __all__ = ["read_netlist"]

@@ -11,7 +11,7 @@ from collections.abc import Callable
 from typing import Protocol
 
 from tauscan.circuit import Element, SourceSpec, Waveform
-from tauscan.errors import NetlistSyntaxError
+from tauscan.errors import NetlistSyntaxError, did_you_mean
 from tauscan.reader.fields import Field
 from tauscan.reader.lines import Card, PlainValueCard
 
@@ -199,7 +199,13 @@ def _device(letter: str, name: str, pos: list[Field], params: list[Field], card:
     _need(pos, count + 1, card, f"the {what} nodes and the model")
     model = frame.model(pos[count][1])
     if model is None:
-        raise card.error(NetlistSyntaxError, f"model {pos[count][1]!r} is not defined", pos[count][2])
+        known = []
+        scope = frame.definition
+        while scope is not None:
+            known.extend(scope.models)
+            scope = scope.parent
+        raise card.error(NetlistSyntaxError, f"model {pos[count][1]!r} is not defined" + did_you_mean(pos[count][1], known),
+                         pos[count][2])
     values = _params(params, card, frame)
     if len(pos) > count + 1:
         if pos[count + 1][0] == "w" and pos[count + 1][1].lower() == "off":

@@ -13,7 +13,7 @@ from itertools import repeat
 from operator import attrgetter, itemgetter, methodcaller
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
-from tauscan.errors import HierarchyError, NetlistSyntaxError, TauscanError
+from tauscan.errors import HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
 from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field, card_fields
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
@@ -122,12 +122,24 @@ class Frame:
 
 
 class Flattener:
-    def __init__(self, netlist: Netlist, overrides: dict[str, float] | None = None) -> None:
+    def __init__(self, netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error") -> None:
         self.netlist = netlist
         self.global_nodes = {n for n in netlist.global_nodes if n not in GROUND_NAMES}
         top = netlist.top
-        self.top_scope = ParamScope(top.params, None, overrides or {})
         self.circuit = Circuit(netlist.title, netlist.file)
+        for key in overrides or {}:
+            if key not in top.params:
+                hint = did_you_mean(key, top.params)
+                if not hint:
+                    names = sorted(top.params)
+                    hint = (f" (its parameters: {', '.join(names[:12])}{', ...' if len(names) > 12 else ''})"
+                            if names else " (it has none)")
+                message = f"parameter {key!r} is not a .param of {netlist.file}{hint}"
+                if unknown == "error":
+                    raise SettingsError(message, netlist.file)
+                self.circuit.unknown_params[key] = message
+                self.circuit.warnings.append(f"{message}: the override does not apply to this netlist")
+        self.top_scope = ParamScope(top.params, None, overrides or {})
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
         #: the name of every element taken so far (in the table or not)
@@ -436,7 +448,13 @@ class Flattener:
         sub_field = pos[-1]
         definition = frame.definition.find_subckt(sub_field[1].lower())
         if definition is None:
-            raise card.error(HierarchyError, f"unknown subcircuit {sub_field[1]!r}", sub_field[2])
+            known = []
+            scope = frame.definition
+            while scope is not None:
+                known.extend(scope.subckts)
+                scope = scope.parent
+            raise card.error(HierarchyError, f"unknown subcircuit {sub_field[1]!r}" + did_you_mean(sub_field[1], known),
+                             sub_field[2])
         nodes = pos[:-1]
         for f in nodes:
             if f[0] != "w":
@@ -504,6 +522,8 @@ def check_recursion(top: Definition) -> None:
             stack.pop()
 
 
-def flatten(netlist: Netlist, overrides: dict[str, float] | None = None) -> Circuit:
-    """Expand the hierarchy and evaluate every value."""
-    return Flattener(netlist, overrides).run()
+def flatten(netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error") -> Circuit:
+    """Expand the hierarchy and evaluate every value; an override naming no global
+    ``.param`` is an error (``unknown="error"``) or recorded in ``circuit.unknown_params``
+    (``"record"``: a batch decides, as one netlist of several may not use a corner's parameter)."""
+    return Flattener(netlist, overrides, unknown).run()

@@ -30,8 +30,10 @@ def renderables(runs: list, code: int) -> Group:
     corners = any(run.request.corner for run in runs)
     worst = worst_corners(runs)
     overview = Table(title="Netlists", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
+    floors = any(run.lint.floor for run in runs)
     columns = (["netlist"] + (["corner"] if corners else [])
-               + ["source -> probe", "signal-path estimate", "-3 dB", "errors", "warnings", "notes"])
+               + ["source -> probe", "signal-path estimate", "-3 dB"] + (["floor", "margin"] if floors else [])
+               + ["errors", "warnings", "notes"])
     for col in columns:
         overview.add_column(col, justify="left" if col in ("netlist", "corner", "source -> probe") else "right")
     for k, run in enumerate(runs):
@@ -42,7 +44,16 @@ def renderables(runs: list, code: int) -> Group:
             cells.append((run.request.corner or "") + (" (worst)" if k in worst else ""))
         path = f"{a.source} -> {a.probe}" if a.source and a.probe else "-"
         estimate = eng(a.elmore_hz, "Hz") if a.elmore_hz else eng(a.octc_hz, "Hz") + " (open-circuit)"
-        cells += [path, estimate, eng(a.f3db_hz, "Hz"), str(counts["error"]), str(counts["warning"]), str(counts["note"])]
+        cells += [path, estimate, eng(a.f3db_hz, "Hz")]
+        if floors:
+            fl = run.lint.floor
+            if fl is None:
+                cells += ["-", "-"]
+            else:
+                judged = "" if fl["judged"] == "f3db" else f" ({'signal-path' if fl['judged'] == 'elmore' else 'open-circuit'})"
+                margin = "-" if fl["margin"] is None else f"{100 * fl['margin']:+.1f}%{judged}"
+                cells += [eng(fl["floor_hz"], "Hz"), margin]
+        cells += [ str(counts["error"]), str(counts["warning"]), str(counts["note"])]
         overview.add_row(*cells, style="bold" if k in worst else None)
     parts = [overview]
     for run in runs:

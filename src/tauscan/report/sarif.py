@@ -23,7 +23,7 @@ def _uri(path: str) -> str:
     return rel.replace(os.sep, "/")
 
 
-def document(runs: list) -> dict:
+def document(runs: list, failures: list | None = None) -> dict:
     rule_ids = list(RULES)
     rules = [{
         "id": r.id,
@@ -60,6 +60,16 @@ def document(runs: list) -> dict:
             "band": a.band.to_json() if a.band is not None else None,
             "off_signal_path": [c.name for c in a.off_path_capacitors],
         })
+    # a netlist of the batch that stopped with an error: a tool execution notification
+    notes = []
+    for f in failures or ():
+        location = {"artifactLocation": {"uri": _uri(f.file or f.netlist)}}
+        if f.line:
+            location["region"] = {"startLine": int(f.line), **({"startColumn": int(f.col)} if f.col else {})}
+        notes.append({"level": "error", "message": {"text": f.headline}, "locations": [{"physicalLocation": location}]})
+    invocation = {"executionSuccessful": not notes}
+    if notes:
+        invocation["toolExecutionNotifications"] = notes
     return {
         "$schema": SCHEMA,
         "version": "2.1.0",
@@ -67,11 +77,11 @@ def document(runs: list) -> dict:
             "tool": {"driver": {"name": "tauscan", "version": __version__, "rules": rules}},
             "artifacts": [{"location": {"uri": uri}} for uri in artifacts],
             "results": results,
-            "invocations": [{"executionSuccessful": True}],
+            "invocations": [invocation],
             "properties": {"analyses": analyses},
         }],
     }
 
 
-def render(runs: list) -> str:
-    return json.dumps(document(runs), indent=2) + "\n"
+def render(runs: list, failures: list | None = None) -> str:
+    return json.dumps(document(runs, failures), indent=2) + "\n"

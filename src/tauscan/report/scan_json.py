@@ -15,8 +15,9 @@ def scan_record(run) -> dict:
     data["waivers"] = [{"capacitor": w.capacitor, "reason": w.reason, "source": w.source} for w in run.lint.waivers]
     data["warnings"] = list(a.warnings)
     data["methods"] = dict(a.methods)
+    data["floor"] = run.lint.floor
     ordered = {k: data[k] for k in ("netlist", "corner", "title", "source", "probe", "probe_reason",
-                                    "drive_unit", "rank", "band", "summary", "capacitors", "nodes", "poles",
+                                    "drive_unit", "rank", "band", "summary", "floor", "capacitors", "nodes", "poles",
                                     "unstable_poles", "findings", "waivers", "warnings", "methods")}
     return ordered
 
@@ -32,12 +33,15 @@ def _dumps(data: dict, size: int) -> str:
     return json.dumps(data, indent=2) + "\n"
 
 
-def render(runs: list, exit_code: int | None = None) -> str:
+def render(runs: list, exit_code: int | None = None, failures: list | None = None) -> str:
     size = sum(len(r.analysis.capacitors) for r in runs)
-    if len(runs) == 1 and exit_code is None:
+    failures = list(failures or ())
+    if len(runs) == 1 and exit_code is None and not failures:
         return _dumps(scan_record(runs[0]), size)
     data = {"runs": [scan_record(r) for r in runs]}
     data["findings"] = [f for r in data["runs"] for f in r["findings"]]
+    if failures:
+        data["errors"] = [f.to_json() for f in failures]
     if exit_code is not None:
         data["exit_code"] = exit_code
     return _dumps(data, size)

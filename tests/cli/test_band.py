@@ -193,3 +193,32 @@ def test_csv_markdown_and_sarif_carry_the_signal_path():
     assert len(analyses) == 1
     assert_allclose(analyses[0]["summary"]["elmore_hz"], ref["summary"]["elmore_hz"], rtol=1e-9)
     assert analyses[0]["band"]["mode"] == "auto" and "m11:cgd" in analyses[0]["off_signal_path"]
+
+
+def test_fix_first_names_the_largest_transfer_time_constant_and_skips_waivers():
+    data = scan_json(SAMPLES / "cascode_stage.sp")
+    fix = data["summary"]["fix_first"]
+    top = max((c for c in data["capacitors"] if c["on_signal_path"]), key=lambda c: c["transfer_tau_s"])
+    assert fix["capacitor"] == top["name"] == "m1:cgs"
+    rest = data["summary"]["sum_transfer_tau_s"] - top["transfer_tau_s"]
+    assert_allclose(fix["hz_without"], 1 / (2 * math.pi * rest), rtol=1e-9)
+    out = run_cli("scan", str(SAMPLES / "cascode_stage.sp"))
+    assert "fix first" in out.stdout and "m1:cgs: without it the signal-path estimate rises" in out.stdout
+    # the compensation capacitor of this sample is waived (Miller by design): not named
+    amp = scan_json(SAMPLES / "two_stage_amp.sp")
+    assert amp["summary"]["fix_first"]["capacitor"] != "cc"
+
+
+def test_no_gain_is_grounded_and_numbers_print_plainly(tmp_path):
+    """C2 bridges node a to node y, which only a resistor to ground holds: with capacitors
+    open y does not move (K = 0 up to round-off), so C2 is classed grounded, not Miller."""
+    from tauscan.report.scan_table import _num, signed_pct
+
+    path = tmp_path / "k0.sp"
+    path.write_text("no gain across\nVin in 0 dc 0 ac 1\nR1 in a 1k\nRa a 0 1k\nC1 a 0 1p\n"
+                    "Ry y 0 1k\nC2 a y 1p\nG1 z 0 a 0 -10m\nRz z 0 10k\nCz z 0 10f\n.end\n")
+    data = scan_json(path, "--band", "dc")
+    c2 = cap(data, "c2")
+    assert c2["class"] == "grounded" and abs(c2["gain"] or 0.0) < 1e-9
+    assert [_num(x) for x in (1e5, -0.0, -1e-16, -133.33)] == ["100000", "0", "0", "-133"]
+    assert signed_pct(-1e-5) == "0.0%" and signed_pct(0.093) == "+9.3%"

@@ -179,6 +179,29 @@ class Analysis:
             return None
         return self.octc_hz / exact - 1.0
 
+    def fix_first(self, skip=()) -> dict | None:
+        """The capacitor whose removal raises the bandwidth estimate most, with the figures:
+        on the signal path, 1 / (2 pi (sum T - T_k)) against the signal-path estimate; without
+        a transfer, the open-circuit estimate without it (and with the gain across it cut to
+        -1, as a cascode does, when that is the larger).  ``skip``: names left out (the
+        waived ones: accepted by design).  None when nothing is ranked."""
+        on = [c for c in self.on_path_capacitors if c.name not in skip]
+        if self.sum_transfer_tau_s and self.sum_transfer_tau_s > 0 and self.elmore_hz and on:
+            best = max(on, key=lambda c: c.transfer_tau_s or 0.0)
+            rest = self.sum_transfer_tau_s - (best.transfer_tau_s or 0.0)
+            if not best.transfer_tau_s or best.transfer_tau_s <= 0:
+                return None
+            after = 1 / (2 * math.pi * rest) if rest > 0 else None
+            out = {"capacitor": best.name, "estimate": "signal-path", "hz": self.elmore_hz, "hz_without": after}
+            if best.octc_hz_if_cascoded and best.octc_hz_if_removed and self.octc_hz and best.klass == "miller":
+                out["octc_hz_if_cascoded"] = best.octc_hz_if_cascoded
+            return out
+        if not self.octc_hz or not on:
+            return None
+        best = max(on, key=lambda c: max(c.octc_hz_if_removed or 0.0, c.octc_hz_if_cascoded or 0.0))
+        return {"capacitor": best.name, "estimate": "open-circuit", "hz": self.octc_hz,
+                "hz_without": best.octc_hz_if_removed, "octc_hz_if_cascoded": best.octc_hz_if_cascoded}
+
     def capacitor(self, name: str) -> CapacitorResult:
         for cap in self.capacitors:
             if cap.name == name:
@@ -204,7 +227,7 @@ class Analysis:
 
         return pd.DataFrame([n.to_json() for n in self.nodes], columns=NODE_COLUMNS)
 
-    def summary_json(self) -> dict:
+    def summary_json(self, waived: Mapping[str, str] | None = None) -> dict:
         """The headline figures (the JSON ``summary``)."""
         return {
             "sum_tau_s": _finite(self.sum_tau_s),
@@ -216,6 +239,7 @@ class Analysis:
             "dc_gain": _finite(self.dc_gain),
             "elmore_hz": _finite(self.elmore_hz),
             "sum_transfer_tau_s": _finite(self.sum_transfer_tau_s),
+            "fix_first": self.fix_first(waived or ()),
         }
 
     def to_json(self, waived: Mapping[str, str] | None = None) -> dict:
@@ -229,7 +253,7 @@ class Analysis:
             "drive_unit": self.drive_unit,
             "rank": self.rank,
             "band": self.band.to_json() if self.band is not None else None,
-            "summary": self.summary_json(),
+            "summary": self.summary_json(waived),
             "capacitors": [c.to_json(waived.get(c.name)) for c in self.capacitors],
             "nodes": [n.to_json() for n in self.nodes],
             "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],

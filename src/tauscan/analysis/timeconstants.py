@@ -48,6 +48,10 @@ class CapacitorTable:
     klass: np.ndarray  # object: grounded | miller | bootstrap | regenerative
 
 
+#: |gain| below this is no gain (round-off of an exact zero): the capacitor is classed grounded.
+NO_GAIN = 1e-9
+
+
 def capacitor_table(farads: np.ndarray, a_ground: np.ndarray, b_ground: np.ndarray,
                     zaa: np.ndarray, zbb: np.ndarray, zab: np.ndarray, zba: np.ndarray) -> CapacitorTable:
     """Resistance seen, time constant, gains both ways, input side, class and Miller factors
@@ -70,8 +74,11 @@ def capacitor_table(farads: np.ndarray, a_ground: np.ndarray, b_ground: np.ndarr
     # exact split: C Zaa (1 - Kab) = C (Zaa - Zba) and C Zbb (1 - Kba) = C (Zbb - Zab)
     part_a = farads * (zaa - zba)
     part_b = farads * (zbb - zab)
+    # a gain within round-off of zero is no gain: the far end does not move, as a ground
+    # would not (its Miller factor is 1); "miller" for -1e-15 would send a designer looking
+    no_gain = np.nan_to_num(np.abs(gain), nan=np.inf) < NO_GAIN
     klass = np.where(
-        grounded, "grounded",
+        grounded | no_gain, "grounded",
         np.where(gain < 0, "miller", np.where(gain < 1, "bootstrap", "regenerative")),
     ).astype(object)
     return CapacitorTable(farads, zaa, zbb, zab, zba, grounded, a_ground, ohms, tau, k_ab, k_ba,

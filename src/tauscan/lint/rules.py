@@ -65,18 +65,23 @@ def miller_node(ctx) -> list[Finding]:
         caps = [c for c in a.capacitors if c.node_in == node.node and c.klass == "miller" and c.name not in ctx.waivers]
         caps.sort(key=lambda c: -c.miller_excess_s)
         worst = caps[0] if caps else None
-        if worst is not None:
-            file, line = worst.file, worst.line
-        else:
-            file, line = _first_line(ctx.circuit, node.node, a.netlist)
-        found.append(Finding(
-            "miller-node", ctx.level("miller-node"), file, line, node.node,
+        found.append(_miller_finding(
+            ctx, node.node, worst,
             "node {} carries {:.0%} of the total time constant, {:.0%} of it Miller multiplication{}",
             (node.node, node.share, miller / node.tau_s,
              f" (mostly {worst.name}, gain {worst.gain:.3g}, factor {worst.factor_in:.3g})" if worst else ""),
             {"share": node.share, "miller_share": miller / node.tau_s, "tau_s": node.tau_s},
         ))
     return found
+
+
+def _miller_finding(ctx, node: str, worst, template: str, args: tuple, numbers: dict) -> Finding:
+    """A miller-node finding, placed on the line of its worst capacitor (or of the node's first use)."""
+    if worst is not None:
+        file, line = worst.file, worst.line
+    else:
+        file, line = _first_line(ctx.circuit, node, ctx.analysis.netlist)
+    return Finding("miller-node", ctx.level("miller-node"), file, line, node, template, args, numbers)
 
 
 def _signal_miller_nodes(ctx) -> list[Finding]:
@@ -100,12 +105,8 @@ def _signal_miller_nodes(ctx) -> list[Finding]:
             continue
         caps.sort(key=lambda c: -(c.transfer_tau_s or 0.0))
         worst = caps[0] if caps else None
-        if worst is not None:
-            file, line = worst.file, worst.line
-        else:
-            file, line = _first_line(ctx.circuit, node.node, a.netlist)
-        found.append(Finding(
-            "miller-node", ctx.level("miller-node"), file, line, node.node,
+        found.append(_miller_finding(
+            ctx, node.node, worst,
             "node {} carries {:.0%} of the signal path's time constant, {:.0%} of it Miller multiplication{}",
             (node.node, node.transfer_share, miller,
              f" (mostly {worst.name}, signal gain {worst.signal_gain:.3g})" if worst else ""),

@@ -56,7 +56,7 @@ def document(runs: list, failures: list | None = None) -> dict:
         analyses.append({
             "netlist": _uri(run.request.netlist),
             "source": a.source, "probe": a.probe, "probe_reason": a.probe_reason, "drive_unit": a.drive_unit,
-            "rank": a.rank, "summary": a.summary_json(),
+            "rank": a.rank, "summary": a.summary_json(run.lint.waived),
             "band": a.band.to_json() if a.band is not None else None,
             "off_signal_path": [c.name for c in a.off_path_capacitors],
         })

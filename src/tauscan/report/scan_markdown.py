@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from tauscan.report.scan_table import fix_first_line, signed_pct
 from tauscan.units import eng
 
 
@@ -40,12 +41,15 @@ def render(runs: list, top: int | None = 20) -> str:
                              f"{eng(a.sum_transfer_tau_s, 's')})"]))
         out.append(_row(["dominant pole", eng(a.dominant_pole_hz, "Hz")]))
         out.append(_row(["-3 dB", eng(a.f3db_hz, "Hz")]))
-        out.append(_row(["estimate vs exact", "-" if a.estimate_error is None else f"{100 * a.estimate_error:+.1f}%"]))
+        out.append(_row(["estimate vs exact", "-" if a.estimate_error is None else signed_pct(a.estimate_error)]))
         if a.dc_gain is not None and a.source:
             what = "mid-band gain" if band is not None and band.f_low_hz else "low-frequency gain"
             out.append(_row([what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}"]))
         if a.probe and a.probe_reason:
             out.append(_row(["probe", f"`{a.probe}` ({a.probe_reason})"]))
+        fix = fix_first_line(a, run.lint.waived)
+        if fix:
+            out.append(_row(["fix first", fix]))
         for p in a.unstable_poles:
             out.append(_row(["**unstable pole**", f"{eng(abs(p) / 6.283185307179586, 'Hz')} (real part {p.real:+.3g} /s)"]))
         out.append("")

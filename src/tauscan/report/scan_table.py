@@ -23,7 +23,21 @@ def _pct(x: float | None) -> str:
 
 
 def _num(x: float | None, digits: int = 3) -> str:
-    return "-" if x is None else f"{x:.{digits}g}"
+    """A gain or factor: plain digits up to 1e6 (never ``1e+05``), no ``-0``."""
+    if x is None or x != x:
+        return "-"
+    if abs(x) < 10 ** (digits - 1) * 1e-12:
+        return "0"
+    text = f"{x:.{digits}g}"
+    if "e" in text and 1e-3 <= abs(x) < 1e6:
+        text = f"{x:.0f}" if abs(x) >= 10 ** digits else f"{x:.{digits}f}".rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "-0.0") else text
+
+
+def signed_pct(x: float) -> str:
+    """A signed percentage, never ``-0.0%``."""
+    text = f"{100 * x:+.1f}%"
+    return "0.0%" if text in ("-0.0%", "+0.0%") else text
 
 
 def summary(run) -> Table:
@@ -49,16 +63,33 @@ def summary(run) -> Table:
     where = f" at {a.probe}" if a.probe else ""
     grid.add_row(f"-3 dB{where}", eng(a.f3db_hz, "Hz") + ("" if a.f3db_hz else f"  ({a.f3db_note})"))
     if a.estimate_error is not None:
-        grid.add_row("estimate vs exact", f"{100 * a.estimate_error:+.1f}%" + _trust(a))
+        grid.add_row("estimate vs exact", signed_pct(a.estimate_error) + _trust(a))
     if a.dc_gain is not None and a.source:
         what = "mid-band gain" if band is not None and band.f_low_hz else "low-frequency gain"
         grid.add_row(what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}")
     if a.probe and a.probe_reason:
         grid.add_row("probe", f"{a.probe} ({a.probe_reason})")
+    fix = fix_first_line(a, run.lint.waived)
+    if fix:
+        grid.add_row(Text("fix first", style="bold"), fix)
     for p in a.unstable_poles:
         grid.add_row(Text("unstable pole", style="bold red"), f"{eng(abs(p) / 6.283185307179586, 'Hz')} "
                      f"(real part {p.real:+.3g} /s: right half-plane)")
     return grid
+
+
+def fix_first_line(a, waived=()) -> str:
+    """One line naming the capacitor whose removal raises the estimate most, with the figure
+    (waived capacitors are accepted by design and left out)."""
+    fix = a.fix_first(waived) if not a.unstable_poles else None
+    if not fix or not fix.get("hz_without"):
+        return ""
+    line = (f"{fix['capacitor']}: without it the {fix['estimate']} estimate rises from {eng(fix['hz'], 'Hz')} "
+            f"to {eng(fix['hz_without'], 'Hz')}")
+    if fix.get("octc_hz_if_cascoded") and a.octc_hz:
+        line += (f"; cascoded (gain across it cut to -1) the open-circuit estimate goes from {eng(a.octc_hz, 'Hz')} "
+                 f"to {eng(fix['octc_hz_if_cascoded'], 'Hz')}")
+    return line
 
 
 def band_block(run) -> list:

@@ -23,7 +23,7 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     p = sub.add_parser("op", help="solve and print the DC operating point")
     add_common(p)
     _add_bias_options(p)
-    p.add_argument("--format", choices=["table", "json"], default="table")
+    p.add_argument("--format", choices=["table", "json"], default="table", help="table (default) or json")
     p.add_argument("-o", "--output", metavar="FILE", help="write to FILE instead of standard output")
     p.set_defaults(handler=cmd_op)
 
@@ -31,7 +31,9 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     add_common(p, several=True)
     _add_bias_options(p)
     _add_analysis_options(p)
-    p.add_argument("--format", choices=formats.choices("scan"), default="table")
+    p.add_argument("--format", choices=formats.choices("scan"), default="table",
+                   help="table (the terminal report; default), json (every figure), csv (one row per "
+                        "capacitor), markdown (for a review), sarif (findings for code scanning)")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
     p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
@@ -44,7 +46,8 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     _add_bias_options(p)
     _add_analysis_options(p)
     p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
-    p.add_argument("--format", choices=formats.choices("check"), default="table")
+    p.add_argument("--format", choices=formats.choices("check"), default="table",
+                   help="table (one line per netlist and the findings; default), json, sarif")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     _add_batch_options(p)
     p.set_defaults(handler=cmd_check)
@@ -62,7 +65,8 @@ def _positive_int(text: str) -> int:
 
 def _add_batch_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--corner", action="append", default=[], metavar="NAME:PARAM=V,...",
-                   help="scan once per corner: parameter overrides and temp=C (repeatable)")
+                   help="scan once per corner: parameter overrides, temp=C and lib=SECTION (the .lib "
+                        "section to read instead of the netlist's; repeatable)")
     p.add_argument("--jobs", type=_positive_int, default=0, metavar="N",
                    help="worker processes for several netlists or corners (default: the number of cores)")
     p.add_argument("--cluster", metavar="ADDRESS",

@@ -141,3 +141,37 @@ def test_broken_netlist_in_a_batch(tmp_path, jobs):
     out, data = check_json(SENSOR, str(bad), "--jobs", jobs)
     assert out.returncode == 2 and len(data["runs"]) == 1
     assert data["errors"][0]["line"] == 2 and data["exit_code"] == 2
+
+
+def test_sarif_uris_are_percent_encoded_and_findings_fingerprinted(tmp_path):
+    folder = tmp_path / "with space"
+    folder.mkdir()
+    (folder / "a b.sp").write_text((SAMPLES / "two_stage_amp.sp").read_text())
+    args = ("check", "with space/a b.sp", "--format", "sarif", "--min-bandwidth", "1meg")
+    first = run_cli(*args, cwd=str(tmp_path))
+    assert first.stdout.endswith("\n")
+    doc = json.loads(first.stdout)
+    run = doc["runs"][0]
+    assert run["artifacts"][0]["location"]["uri"] == "with%20space/a%20b.sp"
+    prints = [r["partialFingerprints"]["tauscanSubject/v1"] for r in run["results"]]
+    assert prints and len(set(prints)) == len(prints)
+    # the same finding keeps its fingerprint when the netlist's lines move
+    text = (folder / "a b.sp").read_text()
+    (folder / "a b.sp").write_text(text.replace("\n.param", "\n* a new comment line\n.param", 1))
+    again = json.loads(run_cli(*args, cwd=str(tmp_path)).stdout)["runs"][0]["results"]
+    assert [r["partialFingerprints"]["tauscanSubject/v1"] for r in again] == prints
+
+
+def test_models_without_capacitance_parameters_are_warned(tmp_path):
+    path = tmp_path / "bare.sp"
+    path.write_text("no caps\n.model bare nmos level=1 vto=0.5 kp=100u\nVdd vdd 0 1.8\nVin g 0 dc 0.8 ac 1\n"
+                    "M1 d g 0 0 bare w=1u l=1u\nM2 d2 g 0 0 bare w=1u l=1u\nRl vdd d 10k\nRl2 vdd d2 10k\n"
+                    "Cl d 0 10f\n.end\n")
+    out = run_cli("scan", str(path), "--format", "json")
+    warnings = [w for w in json.loads(out.stdout)["warnings"] if "no capacitance parameters" in w]
+    assert len(warnings) == 1 and "model bare" in warnings[0] and "2 devices" in warnings[0]
+
+
+def test_help_explains_format_and_corner_lib():
+    text = " ".join(run_cli("scan", "--help").stdout.split())  # argparse wraps at the terminal width
+    assert "markdown (for a review)" in text and "lib=SECTION" in text

@@ -77,7 +77,7 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     Raises ``SelectionError`` for a probe or source the circuit does not have.
     """
     factors = Factors(ss.g, ss.c, ss.ac_ground_tree())
-    warnings = list(op.warnings)
+    warnings = list(op.warnings) + _capacitance_free_models(op)
     drive = drive_of(ss, source)
     named = named_probe(ss, probe) if probe else None
     if named is not None and drive is None:
@@ -143,6 +143,21 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
         unstable_poles=unstable, drive_unit=drive.unit if drive is not None else "",
         probe_reason=transfer.probe_reason, rank=settings.rank if tt is not None else "octc",
     )
+
+
+def _capacitance_free_models(op: OperatingPoint) -> list[str]:
+    """One warning per device model whose devices all have zero capacitances: the card
+    gives no capacitance parameters, so those devices drop out of the ranking."""
+    by_model: dict[str, list] = {}
+    for dev in op.devices:
+        by_model.setdefault(dev.model, []).append(dev)
+    out = []
+    for model, devices in by_model.items():
+        if all(not any(v for v in d.caps.values()) for d in devices):
+            out.append(f"model {model} gives no capacitance parameters: the capacitances of its {len(devices)} "
+                       f"device{'s' * (len(devices) != 1)} ({devices[0].name}{', ...' if len(devices) > 1 else ''}) "
+                       "are zero, and the ranking says nothing about them")
+    return out
 
 
 @dataclass

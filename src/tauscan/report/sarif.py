@@ -3,8 +3,11 @@ code-scanning services can show them on the netlist's lines."""
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
+import pathlib
+import urllib.parse
 
 from tauscan import __version__
 from tauscan.lint.rules import RULES
@@ -14,13 +17,20 @@ LEVEL = {"error": "error", "warning": "warning", "note": "note"}
 
 
 def _uri(path: str) -> str:
+    """A relative URI reference (percent-encoded: paths with spaces), or a file: URI
+    for a file outside the working folder (RFC 3986, as SARIF 2.1.0 section 3.10 asks)."""
     try:
         rel = os.path.relpath(path)
     except ValueError:
         rel = path
     if rel.startswith(".."):
-        rel = os.path.abspath(path)
-    return rel.replace(os.sep, "/")
+        return pathlib.Path(os.path.abspath(path)).as_uri()
+    return urllib.parse.quote(rel.replace(os.sep, "/"))
+
+
+def _fingerprint(f) -> str:
+    """Stable across runs and line moves: the rule, the file and the subject it is about."""
+    return hashlib.sha256(f"{f.rule}\0{_uri(f.file)}\0{f.subject}".encode()).hexdigest()[:32]
 
 
 def document(runs: list, failures: list | None = None) -> dict:
@@ -47,6 +57,7 @@ def document(runs: list, failures: list | None = None) -> dict:
                 "level": LEVEL[f.severity],
                 "message": {"text": f.message},
                 "locations": [{"physicalLocation": location, "logicalLocations": [{"name": f.subject}]}],
+                "partialFingerprints": {"tauscanSubject/v1": _fingerprint(f)},
                 "properties": {k: v for k, v in f.numbers.items() if isinstance(v, (int, float, str))},
             })
     # the figures each finding was judged on, per netlist (SARIF property bags are free-form)

@@ -161,8 +161,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
     given = [parse_corner(text) for text in args.corner]
     requests = []
     for netlist in netlists:
-        # corners from the command line, else from the netlist's settings file
-        corners = given or list(settings_for(ScanRequest(netlist, config=args.config)).corners) or [None]
+        # corners from the settings file run beside the nominal case; given ones replace it
+        corners = given or [None, *settings_for(ScanRequest(netlist, config=args.config)).corners]
         for corner in corners:
             merged = dict(params)
             temp = args.temp

@@ -175,3 +175,30 @@ def test_models_without_capacitance_parameters_are_warned(tmp_path):
 def test_help_explains_format_and_corner_lib():
     text = " ".join(run_cli("scan", "--help").stdout.split())  # argparse wraps at the terminal width
     assert "markdown (for a review)" in text and "lib=SECTION" in text
+
+
+def test_every_report_names_its_corner(tmp_path):
+    corners = ("--corner", "slow:vdd=1.6", "--corner", "fast:vdd=2.0")
+    table = run_cli("scan", SENSOR, *corners).stdout
+    assert "corner slow" in table and "corner fast" in table
+    csv_text = run_cli("scan", SENSOR, *corners, "--format", "csv").stdout
+    assert csv_text.splitlines()[0].startswith("netlist,corner,name")
+    assert {line.split(",")[1] for line in csv_text.splitlines()[1:]} == {"slow", "fast"}
+    out, data = check_json(SENSOR, *corners, "--min-bandwidth", "20MHz")
+    assert [f["corner"] for f in data["findings"]] == ["slow", "fast"]
+    doc = json.loads(run_cli("check", SENSOR, *corners, "--min-bandwidth", "20MHz", "--format", "sarif").stdout)
+    run = doc["runs"][0]
+    assert [a["corner"] for a in run["properties"]["analyses"]] == ["slow", "fast"]
+    assert [r["message"]["text"].endswith(f"[corner {c}]") for r, c in zip(run["results"], ("slow", "fast"))] == [True, True]
+    fps = {r["partialFingerprints"]["tauscanSubject/v1"] for r in run["results"]}
+    assert len(fps) == 2  # the same finding at two corners is two results
+    check = run_cli("check", SENSOR, *corners, "--min-bandwidth", "20MHz").stdout
+    assert "corner" in check.split("Findings")[1].splitlines()[2]
+
+
+def test_settings_corners_run_beside_the_nominal_case(tmp_path):
+    (tmp_path / "tauscan.toml").write_text("[corners]\nlow = { vdd = 1.6 }\n")
+    path = tmp_path / "s.sp"
+    path.write_text((SAMPLES / "sensor_readout.sp").read_text())
+    out = run_cli("check", str(path))
+    assert "nominal" in out.stdout and "low" in out.stdout

@@ -21,9 +21,10 @@ def worst_corners(runs: list) -> set[int]:
     """Indices of the run with the lowest bandwidth for each netlist scanned at several corners."""
     by_netlist: dict[str, list[int]] = {}
     for k, run in enumerate(runs):
-        if run.request.corner is not None:
-            by_netlist.setdefault(run.request.netlist, []).append(k)
-    return {min(ks, key=lambda k: _bandwidth(runs[k])) for ks in by_netlist.values() if len(ks) > 1}
+        by_netlist.setdefault(run.request.netlist, []).append(k)
+    # the nominal case of a netlist scanned at corners competes with them
+    return {min(ks, key=lambda k: _bandwidth(runs[k])) for ks in by_netlist.values()
+            if len(ks) > 1 and any(runs[k].request.corner for k in ks)}
 
 
 def renderables(runs: list, code: int) -> Group:
@@ -41,7 +42,7 @@ def renderables(runs: list, code: int) -> Group:
         counts = {s: sum(1 for f in run.lint.findings if f.severity == s) for s in ("error", "warning", "note")}
         cells = [run.request.netlist]
         if corners:
-            cells.append((run.request.corner or "") + (" (worst)" if k in worst else ""))
+            cells.append((run.request.corner or "nominal") + (" (worst)" if k in worst else ""))
         path = f"{a.source} -> {a.probe}" if a.source and a.probe else "-"
         estimate = eng(a.elmore_hz, "Hz") if a.elmore_hz else eng(a.octc_hz, "Hz") + " (open-circuit)"
         cells += [path, estimate, eng(a.f3db_hz, "Hz")]
@@ -62,13 +63,15 @@ def renderables(runs: list, code: int) -> Group:
             parts.append(Text(f"{run.request.netlist}: probe {a.probe} ({a.probe_reason or 'as asked'}), "
                               f"gain {a.drive_unit or 'from ' + str(a.source)}; "
                               + (a.band.note if a.band is not None else ""), style="dim"))
-    findings = [f for run in runs for f in run.lint.findings]
+    findings = [(run.request.corner, f) for run in runs for f in run.lint.findings]
     if findings:
         t = Table(title="Findings", title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
-        for col in ("severity", "rule", "where", "message"):
+        for col in ("severity", "rule", "where", *(["corner"] if corners else []), "message"):
             t.add_column(col, overflow="fold")
-        for f in findings:
-            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, f.file + (f":{f.line}" if f.line else ""), f.message)
+        for corner, f in findings:
+            where = f.file + (f":{f.line}" if f.line else "")
+            t.add_row(Text(f.severity, style=SEVERITY_STYLE.get(f.severity, "")), f.rule, where,
+                      *([corner or "nominal"] if corners else []), f.message)
         parts.append(t)
     waivers = [w for run in runs for w in run.lint.waivers]
     if waivers:

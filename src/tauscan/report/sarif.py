@@ -28,9 +28,9 @@ def _uri(path: str) -> str:
     return urllib.parse.quote(rel.replace(os.sep, "/"))
 
 
-def _fingerprint(f) -> str:
-    """Stable across runs and line moves: the rule, the file and the subject it is about."""
-    return hashlib.sha256(f"{f.rule}\0{_uri(f.file)}\0{f.subject}".encode()).hexdigest()[:32]
+def _fingerprint(f, corner: str | None = None) -> str:
+    """Stable across runs and line moves: the rule, the file, the subject and the corner."""
+    return hashlib.sha256(f"{f.rule}\0{_uri(f.file)}\0{f.subject}\0{corner or ''}".encode()).hexdigest()[:32]
 
 
 def document(runs: list, failures: list | None = None) -> dict:
@@ -51,21 +51,23 @@ def document(runs: list, failures: list | None = None) -> dict:
             location = {"artifactLocation": {"uri": uri, "index": artifacts[uri]}}
             if f.line:
                 location["region"] = {"startLine": int(f.line)}
+            corner = run.request.corner
             results.append({
                 "ruleId": f.rule,
                 "ruleIndex": rule_ids.index(f.rule),
                 "level": LEVEL[f.severity],
-                "message": {"text": f.message},
+                "message": {"text": f.message + (f" [corner {corner}]" if corner else "")},
                 "locations": [{"physicalLocation": location, "logicalLocations": [{"name": f.subject}]}],
-                "partialFingerprints": {"tauscanSubject/v1": _fingerprint(f)},
-                "properties": {k: v for k, v in f.numbers.items() if isinstance(v, (int, float, str))},
+                "partialFingerprints": {"tauscanSubject/v1": _fingerprint(f, corner)},
+                "properties": {**{k: v for k, v in f.numbers.items() if isinstance(v, (int, float, str))},
+                               **({"corner": corner} if corner else {})},
             })
     # the figures each finding was judged on, per netlist (SARIF property bags are free-form)
     analyses = []
     for run in runs:
         a = run.analysis
         analyses.append({
-            "netlist": _uri(run.request.netlist),
+            "netlist": _uri(run.request.netlist), "corner": run.request.corner,
             "source": a.source, "probe": a.probe, "probe_reason": a.probe_reason, "drive_unit": a.drive_unit,
             "rank": a.rank, "summary": a.summary_json(run.lint.waived),
             "band": a.band.to_json() if a.band is not None else None,

@@ -7,8 +7,11 @@ def render(runs: list) -> str:
     import pandas as pd
 
     frames = []
+    corners = any(run.request.corner for run in runs)
     for run in runs:
         frame = run.analysis.capacitors_frame(run.lint.waived)
+        if corners:
+            frame.insert(0, "corner", run.request.corner or "")
         if len(runs) > 1:
             frame.insert(0, "netlist", run.request.netlist)
         frames.append(frame)

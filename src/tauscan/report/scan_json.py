@@ -11,7 +11,7 @@ def scan_record(run) -> dict:
     data["netlist"] = run.request.netlist
     data["corner"] = run.request.corner
     data["title"] = a.title
-    data["findings"] = [f.to_json() for f in run.lint.findings]
+    data["findings"] = [dict(f.to_json(), corner=run.request.corner) for f in run.lint.findings]
     data["waivers"] = [{"capacitor": w.capacitor, "reason": w.reason, "source": w.source} for w in run.lint.waivers]
     data["warnings"] = list(a.warnings)
     data["methods"] = dict(a.methods)

@@ -22,7 +22,7 @@ def render(runs: list, top: int | None = 20) -> str:
     out = []
     for run in runs:
         a = run.analysis
-        out.append(f"## {a.title or run.request.netlist}")
+        out.append(f"## {a.title or run.request.netlist}" + (f" (corner {run.request.corner})" if run.request.corner else ""))
         out.append("")
         out.append(f"Netlist `{run.request.netlist}`" + (f", source `{a.source}`" if a.source else "") + (f", probe `{a.probe}`" if a.probe else ""))
         out.append("")

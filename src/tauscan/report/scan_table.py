@@ -236,6 +236,8 @@ def findings_block(run) -> list:
 def renderables(run, top: int | None = 20, width: int | None = None) -> Group:
     a = run.analysis
     head = Text.assemble((a.title or "", "bold"), f"  {run.request.netlist}")
+    if run.request.corner:
+        head.append(f"  corner {run.request.corner}", style="bold")
     if a.source:
         head.append(f"  source {a.source}" + (f", probe {a.probe}" if a.probe else ""))
     parts = [head, summary(run), *band_block(run), capacitor_table(run, top, width), *off_path_block(run, top),

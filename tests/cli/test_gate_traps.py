@@ -202,3 +202,22 @@ def test_settings_corners_run_beside_the_nominal_case(tmp_path):
     path.write_text((SAMPLES / "sensor_readout.sp").read_text())
     out = run_cli("check", str(path))
     assert "nominal" in out.stdout and "low" in out.stdout
+
+
+def test_op_report_gives_vth_vdsat_margin_and_gm_over_id():
+    """Level 1 in saturation: id = K vov^2 (1 + lambda vds), so gm / id = 2 / vov exactly
+    (the square law, Shichman and Hodges 1968), and vdsat = vov."""
+    out = run_cli("op", str(CASCODE), "--format", "json")
+    devices = {d["name"]: d for d in json.loads(out.stdout)["devices"]}
+    m1 = devices["m1"]
+    assert m1["region"] == "saturation"
+    assert abs(m1["gm_id"] * m1["vov"] - 2.0) < 1e-6
+    assert m1["vdsat"] == m1["vov"] and abs(m1["margin"] - (m1["vds"] - m1["vdsat"])) < 1e-12
+    assert abs(m1["vgs"] - m1["vth"] - m1["vov"]) < 1e-9
+    q = {d["name"]: d for d in json.loads(run_cli("op", str(SAMPLES / "line_driver.sp"), "--format", "json").stdout)["devices"]}["q1"]
+    assert abs(q["ic_ib"] - q["id"] / q["ib"]) < 1e-9 * q["ic_ib"]
+    table = run_cli("op", str(CASCODE)).stdout
+    assert "gm/id=" in table and "margin=" in table
+    # one quantity per line: a value never splits from its unit
+    for line in table.splitlines():
+        assert not line.rstrip().endswith(("=", " fF", "│ fF"))

@@ -285,7 +285,17 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
     f_high = None
     for k in range(kp + 1, len(freqs)):
         if mag[k] < level:
-            f_high = refine(resp, level, freqs[k - 1], freqs[k], float(mag[k - 1]), float(mag[k]))
+            lo, v_lo, hi, v_hi = freqs[k - 1], float(mag[k - 1]), freqs[k], float(mag[k])
+            if lo == 0:  # already below the level at the first swept point: step down to the edge
+                lo = hi / ratio
+                v_lo = abs(resp(lo))
+                while v_lo < level and lo > F_FLOOR_HZ:
+                    hi, v_hi = lo, v_lo
+                    lo /= ratio
+                    v_lo = abs(resp(lo))
+                if v_lo < level:
+                    break
+            f_high = refine(resp, level, lo, hi, v_lo, v_hi)
             break
     f_low = 0.0
     for k in range(kp - 1, -1, -1):

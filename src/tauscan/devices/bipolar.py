@@ -241,6 +241,7 @@ MODEL = register(DeviceModel(
     quantities=frozenset({"gm", "go", "gpi", "gmu", "id", "ic"}) | frozenset(CAP_TERMINALS),
     capacitances=frozenset(CAP_TERMINALS),
     regions=("forward-active", "saturation", "reverse-active", "cutoff"), poor_regions=frozenset({"saturation", "cutoff"}),
-    json_values=("gm", "gpi", "go", "gmu"), json_bias=("vbe", "vce"), json_caps=("cbe", "cbc", "ccs"),
+    json_values=("gm", "gpi", "go", "gmu"), json_bias=("vbe", "vce", "ib"), json_caps=("cbe", "cbc", "ccs"),
     table_bias=("vbe", "vce"), output_conductance="go", group=BjtGroup, stamps=stamps,
+    table_ratios=(("ic/ib", "current", "ib"),),
 ))

@@ -262,7 +262,10 @@ class MosGroup:
                 name=e.name, type=typ, model=self.models[i], region=str(res["region"][i]),
                 current=float(sign * res["ids"][i]),
                 bias={"vgs": float(p["type"][i] * vgs[i]), "vds": float(p["type"][i] * vds[i]), "vbs": float(p["type"][i] * vbs[i]),
-                      "vth": float(p["type"][i] * res["von"][i]), "vov": float(res["vgst"][i])},
+                      "vth": float(p["type"][i] * res["von"][i]), "vov": float(res["vgst"][i]),
+                      # level 1: the channel pinches off at vds = vgs - vth
+                      "vdsat": float(max(res["vgst"][i], 0.0)),
+                      "margin": float(res["vds_e"][i] - max(res["vgst"][i], 0.0))},
                 values={"gm": float(res["gm"][i]), "gds": float(res["gds"][i]), "gmb": float(res["gmb"][i]),
                         "gbd": float(gbd[i]), "gbs": float(gbs[i])},
                 caps={"cgs": float(cgs_i + p["cgso"][i]), "cgd": float(cgd_i + p["cgdo"][i]), "cgb": float(cgb[i] + p["cgbo"][i]),
@@ -328,6 +331,6 @@ MODEL = register(DeviceModel(
     name="mos", letter="m", model_types=frozenset(cards.MOS_TYPES), levels=None, terminals=("d", "g", "s", "b"),
     quantities=frozenset({"gm", "gds", "gmb", "id"}) | frozenset(CAP_TERMINALS), capacitances=frozenset(CAP_TERMINALS),
     regions=("saturation", "triode", "cutoff"), poor_regions=frozenset({"triode", "cutoff"}),
-    json_values=("gm", "gds", "gmb"), json_bias=("vov", "vgs", "vds"), json_caps=tuple(CAP_TERMINALS),
-    table_bias=("vov", "vds"), output_conductance="gds", group=MosGroup, stamps=stamps,
+    json_values=("gm", "gds", "gmb"), json_bias=("vov", "vgs", "vds", "vth", "vdsat", "margin"), json_caps=tuple(CAP_TERMINALS),
+    table_bias=("vth", "vov", "vds", "vdsat", "margin"), output_conductance="gds", group=MosGroup, stamps=stamps,
 ))

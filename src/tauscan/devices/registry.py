@@ -51,6 +51,9 @@ class DeviceModel:
         Bias voltages shown in the terminal table of the operating point.
     output_conductance : str
         The named value shown as the output conductance.
+    table_ratios : tuple of (label, numerator, denominator)
+        Ratios of named values or bias entries shown in the table beside gm/id (a bipolar's
+        ``ic/ib``); ``"current"`` names the device current.
     group : callable
         ``group(elements, circuit, network, temp_c, warnings)``: the vectorized evaluator of
         every device of this model in a circuit (see ``devices/diode.py``, the smallest).
@@ -75,6 +78,7 @@ class DeviceModel:
     output_conductance: str
     group: Callable
     stamps: Callable
+    table_ratios: tuple[tuple[str, str, str], ...] = ()
 
 
 _MODELS: dict[tuple[str, str, int | None], DeviceModel] = {}

@@ -58,6 +58,12 @@ class OperatingPoint:
             model = registry.by_name(d.family)
             record.update((k, d.values[k]) for k in model.json_values)
             record.update((k, d.bias.get(k)) for k in model.json_bias)
+            gm = d.values.get("gm")
+            record["gm_id"] = gm / abs(d.current) if gm is not None and d.current else None
+            for label, num, den in model.table_ratios:
+                a = d.current if num == "current" else d.values.get(num, d.bias.get(num))
+                b = d.current if den == "current" else d.values.get(den, d.bias.get(den))
+                record[label.replace("/", "_")] = a / b if a is not None and b else None
             caps = {k: d.caps.get(k, 0.0) for k in model.json_caps}
             caps.update((k, v) for k, v in d.caps.items() if k not in caps)
             record["caps"] = caps

@@ -25,6 +25,8 @@ class LintContext:
     waivers: dict[str, waiver_mod.Waiver]
     probe_given: bool
     signal_nodes: frozenset[str] | None = None
+    #: waivers that match nothing or give no reason (found once, read by two rules)
+    waiver_problems: tuple = ()
 
     def level(self, rule: str) -> str:
         return self.settings.severity.get(rule, RULES[rule].severity)
@@ -52,7 +54,8 @@ def run_rules(analysis: Analysis, circuit: Circuit, op: OperatingPoint, settings
               probe_given: bool) -> LintResult:
     """Every rule over one analysis; the analysis is only read."""
     used = waiver_mod.resolve(analysis, circuit, settings.waive, settings.origin)
-    ctx = LintContext(analysis, circuit, op, settings, used, probe_given, analysis.signal_nodes)
+    problems = tuple(waiver_mod.audit(analysis, circuit, settings.waive, settings.origin, settings.waive_lines))
+    ctx = LintContext(analysis, circuit, op, settings, used, probe_given, analysis.signal_nodes, problems)
     findings: list[Finding] = []
     for rule in RULES.values():
         findings.extend(rule.check(ctx))

@@ -9,7 +9,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from tauscan.devices import registry
-from tauscan.lint import waivers as waiver_mod
 from tauscan.lint.findings import Finding
 from tauscan.units import eng
 
@@ -201,8 +200,7 @@ def bias_region(ctx) -> list[Finding]:
 
 
 def _waiver_problems(ctx, kind: str) -> list[Finding]:
-    s = ctx.settings
-    problems = waiver_mod.audit(ctx.analysis, ctx.circuit, s.waive, s.origin, s.waive_lines)
+    problems = ctx.waiver_problems
     rule = "waiver-unused" if kind == "unused" else "waiver-reason"
     return [Finding(rule, ctx.level(rule), p.file, p.line, p.subject, "{}", (p.message,))
             for p in problems if p.kind == kind]

@@ -8,7 +8,7 @@ import os
 import sys
 from collections.abc import Callable, Sequence
 
-from tauscan.errors import EXIT_ERROR
+from tauscan.errors import EXIT_ERROR, SettingsError
 from tauscan.report import formats
 
 
@@ -98,7 +98,6 @@ def _add_bias_options(p: argparse.ArgumentParser) -> None:
 
 def parse_params(items: Sequence[str]) -> dict[str, float]:
     """``--param NAME=VALUE`` items -> {name: value}; values take SPICE suffixes."""
-    from tauscan.errors import SettingsError
     from tauscan.units import parse_assignment
 
     from tauscan.units import OptionValueError
@@ -215,8 +214,6 @@ def _split(results: list) -> tuple[list, list]:
     if runs:
         unknown = set.intersection(*(set(r.unknown_params) for r in runs))
         if unknown:
-            from tauscan.errors import SettingsError
-
             name = sorted(unknown)[0]
             raise SettingsError(runs[0].unknown_params[name], runs[0].request.netlist)
     for f in failures:

@@ -153,10 +153,9 @@ def parse_option_value(text: str, unit: str = "") -> float:
         raise OptionValueError(f"{text!r} is ambiguous: SPICE reads M as milli, SI as mega; {hint}")
     if len(letters) <= 1 and low in _SCALE_ALL:
         return scaled(_SCALE_ALL[low])
-    what = f" {unit}" if unit else ""
-    raise OptionValueError(f"{text!r}: the suffix {letters!r} is not a scale tauscan reads (SPICE: t g meg k m u n p f a; "
-                           f"SI with the unit{what}: {mantissa}k{unit}, {mantissa}M{unit})" if unit else
-                           f"{text!r}: the suffix {letters!r} is not a scale tauscan reads (t g meg k m u n p f a)")
+    si = f"; SI with the unit {unit}: {mantissa}k{unit}, {mantissa}M{unit}" if unit else ""
+    scales = f"SPICE: t g meg k m u n p f a{si}" if unit else "t g meg k m u n p f a"
+    raise OptionValueError(f"{text!r}: the suffix {letters!r} is not a scale tauscan reads ({scales})")
 
 
 _SCALE_ALL = dict(_SCALE, **{"": 0})

@@ -201,20 +201,25 @@ def _number(raw, what: str, path: str, line: int | None) -> float:
         raise SettingsError(f"{what}: {exc}", path, line) from None
 
 
-def frequency_value(raw, what: str, path: str | None = None, line: int | None = None) -> float:
+def frequency_value(raw, what: str, path: str | None = None, line: int | None = None,
+                    expected: str = "a positive frequency such as 100k, 2.5meg or 10MHz") -> float:
     """A positive frequency from an option or a setting: ``100k``, ``2.5meg``, ``10MHz``,
-    ``10 kHz`` (see :func:`tauscan.units.parse_option_value`: a bare ``M`` is refused)."""
+    ``10 kHz`` (see :func:`tauscan.units.parse_option_value`: a bare ``M`` is refused).
+    A number with a refused suffix gets the reason; anything else the ``expected`` forms."""
+    generic = SettingsError(f"{what} takes {expected}, not {raw!r}", path, line)
     if isinstance(raw, (int, float)) and not isinstance(raw, bool):
         value = float(raw)
     elif isinstance(raw, str):
         try:
             value = parse_option_value(raw, "Hz")
         except OptionValueError as exc:
+            if not raw.strip()[:1].isdigit():
+                raise generic from None
             raise SettingsError(f"{what}: {exc}", path, line) from None
     else:
-        value = None
-    if value is None or not value > 0 or value == float("inf"):
-        raise SettingsError(f"{what} takes a positive frequency such as 100k, 2.5meg or 10MHz, not {raw!r}", path, line)
+        raise generic
+    if not value > 0 or value == float("inf"):
+        raise generic
     return value
 
 
@@ -223,23 +228,10 @@ def bandwidth_value(raw, path: str | None = None, line: int | None = None) -> fl
 
 
 def band_value(raw, path: str | None = None, line: int | None = None) -> tuple:
-    """``auto``, ``dc`` or a frequency (``10k``, ``1meg``, ``2.5e6``): the mid-band circuit's choice."""
+    """``auto``, ``dc`` or a frequency (``10k``, ``1meg``, ``10kHz``): the mid-band circuit's choice."""
     if isinstance(raw, str) and raw.strip().lower() in ("auto", "dc"):
         return (raw.strip().lower(), None)
-    generic = f"band takes auto, dc or a positive frequency such as 10k or 10kHz, not {raw!r}"
-    if isinstance(raw, str):
-        try:
-            value = parse_option_value(raw, "Hz")
-        except OptionValueError as exc:
-            # a number with a suffix that is refused gets the reason; a word gets the choices
-            raise SettingsError(f"band: {exc}" if raw.strip()[:1].isdigit() else generic, path, line) from None
-    elif isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        value = float(raw)
-    else:
-        raise SettingsError(generic, path, line)
-    if not value > 0 or value == float("inf"):
-        raise SettingsError(generic, path, line)
-    return ("fixed", value)
+    return ("fixed", frequency_value(raw, "band", path, line, "auto, dc or a positive frequency such as 10k or 10kHz"))
 
 
 def rank_value(raw, path: str | None = None, line: int | None = None) -> str:

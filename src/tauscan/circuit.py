@@ -7,7 +7,8 @@ All values are floats in SI units; names are lower case and hierarchical
 from __future__ import annotations
 
 from array import array
-from collections.abc import Iterator, Sequence
+from bisect import bisect_right
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 from itertools import chain, repeat
 
@@ -83,8 +84,6 @@ class Element:
     source: SourceSpec | None = None
     control: tuple[str, ...] = ()
     comment: str = ""
-    #: how many rows of the circuit's table of plain passives come before it in the flat circuit
-    rows_before: int = 0
 
     def to_json(self) -> dict:
         out = {
@@ -128,7 +127,7 @@ class PassiveTable:
     bulk of an extracted netlist; keeping its fields in columns, with no object per
     element, is what makes a 10^6-line netlist quick to read and to stamp.  Rows are in
     the order of the flat circuit; where the other elements stand between them is kept by
-    each element (:attr:`Element.rows_before`).
+    each element (kept by the :class:`Circuit`, which alone does that arithmetic).
     """
 
     kinds: list[str] = field(default_factory=list)  # "r" or "c"
@@ -146,7 +145,7 @@ class PassiveTable:
     def element(self, k: int) -> Element:
         """Row ``k`` as an :class:`Element` (made on demand, for reports and look-ups)."""
         return Element(self.names[k], self.kinds[k], (self.a[k], self.b[k]), self.values[k], None, {},
-                       self.files[k], self.lines[k], rows_before=k)
+                       self.files[k], self.lines[k])
 
     def rows_of(self, kind: str) -> np.ndarray:
         """Indices of the rows of one kind (``"r"`` or ``"c"``)."""
@@ -156,8 +155,9 @@ class PassiveTable:
 
 
 class ElementView(Sequence):
-    """Every element of a circuit in order, the table rows made into objects as they are met
-    (for listings, JSON and tests; the numerical stages read the columns instead)."""
+    """Every element of a circuit in netlist order, the table rows made into objects as they
+    are met (for listings, JSON and tests; the numerical stages read the columns instead).
+    Indexing is O(log n): a position is mapped to an object element or a table row."""
 
     def __init__(self, circuit: "Circuit") -> None:
         self._circuit = circuit
@@ -166,22 +166,35 @@ class ElementView(Sequence):
         return len(self._circuit.general) + len(self._circuit.passives)
 
     def __iter__(self) -> Iterator[Element]:
-        general = self._circuit.general
-        table = self._circuit.passives
+        circuit = self._circuit
+        general = circuit.general
+        table = circuit.passives
         if not len(table):
             yield from general
             return
         row = 0
-        for e in general:
-            for k in range(row, e.rows_before):
+        for e, before in zip(general, circuit._before()):
+            for k in range(row, before):
                 yield table.element(k)
-            row = max(row, e.rows_before)
+            row = max(row, before)
             yield e
         for k in range(row, len(table)):
             yield table.element(k)
 
     def __getitem__(self, index):
-        return list(self)[index]
+        if isinstance(index, slice):
+            return [self[i] for i in range(*index.indices(len(self)))]
+        size = len(self)
+        if index < 0:
+            index += size
+        if not 0 <= index < size:
+            raise IndexError("element index out of range")
+        circuit = self._circuit
+        positions = circuit._positions()
+        k = bisect_right(positions, index) - 1  # object elements at or before the position
+        if k >= 0 and positions[k] == index:
+            return circuit.general[k]
+        return circuit.passives.element(index - (k + 1))
 
 
 @dataclass
@@ -200,6 +213,59 @@ class Circuit:
     warnings: list[str] = field(default_factory=list)
     #: overrides (--param, a corner) naming no .param of the netlist: name -> the message
     unknown_params: dict[str, str] = field(default_factory=dict)
+
+    def add(self, element: Element) -> None:
+        """Take an element after everything taken so far (table rows included)."""
+        self._before().append(len(self.passives))
+        self.general.append(element)
+
+    def add_many(self, elements: list[Element], before: Iterable[int]) -> None:
+        """Take elements, each after ``before[k]`` rows of the table (rows a reader takes
+        together with them; nondecreasing)."""
+        self._before().extend(before)
+        self.general.extend(elements)
+
+    def _before(self) -> array:
+        """Table rows before each object element, made to match :attr:`general` (elements
+        given to the constructor, or appended directly, come after every row so far)."""
+        before = self.__dict__.get("_rows_before")
+        if before is None:
+            before = self.__dict__["_rows_before"] = array("q")
+        if len(before) < len(self.general):
+            before.extend(repeat(len(self.passives), len(self.general) - len(before)))
+        return before
+
+    def _positions(self) -> array:
+        """Netlist position of every object element (k + table rows before it)."""
+        before = self._before()
+        cached = self.__dict__.get("_position_cache")
+        if cached is None or cached[0] != (len(self.general), len(self.passives)):
+            cached = ((len(self.general), len(self.passives)), array("q", map(int.__add__, range(len(before)), before)))
+            self.__dict__["_position_cache"] = cached
+        return cached[1]
+
+    def first_use(self, node: str) -> Element | None:
+        """The first element in netlist order that touches ``node`` (None when none does)."""
+        first: tuple[int, Element] | None = None
+        for k, e in enumerate(self.general):
+            if node in e.nodes:
+                first = (self._positions()[k], e)
+                break
+        table = self.passives
+        for column in (table.a, table.b):
+            try:
+                row = column.index(node)  # a scan in C; a finding or two per run
+            except ValueError:
+                continue
+            before = bisect_right(self._before(), row)  # object elements before the row
+            position = row + before
+            if first is None or position < first[0]:
+                first = (position, table.element(row))
+        return None if first is None else first[1]
+
+    def commented(self) -> Iterator[Element]:
+        """Elements that carry a comment (a waiver, say), in order; table rows carry none."""
+        return (e for e in self.general if e.comment)
 
     @property
     def elements(self) -> ElementView:
@@ -236,8 +302,7 @@ class Circuit:
         seen: dict[str, None] = {GROUND: None}
         table = self.passives
         row = 0
-        for e in self.general:
-            end = e.rows_before
+        for e, end in zip(self.general, self._before()):
             if end > row:
                 seen.update(zip(chain.from_iterable(zip(table.a[row:end], table.b[row:end])), repeat(None)))
                 row = end

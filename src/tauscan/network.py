@@ -207,7 +207,7 @@ class Network:
         return t
 
     def _inductor(self, k: Element, name: str) -> Element:
-        element = next((e for e in self.circuit.general if e.name == name), None)
+        element = self.circuit.find(name)
         if element is None or element.kind != "l":
             raise CircuitError(f"{k.name}: {name!r} is not an inductor", k.file, k.line)
         return element

@@ -25,21 +25,8 @@ class Rule:
 def _first_line(circuit, node: str, default: str) -> tuple[str, int | None]:
     """(file, line) of the first element of the flat circuit that touches ``node``
     (``(default, None)`` when none does)."""
-    # positions in the flat circuit: 2 * (table rows before) + 1 for an element, 2 * row for a row
-    best: tuple[int, str, int] | None = None
-    for e in circuit.general:
-        if node in e.nodes:
-            best = (2 * e.rows_before + 1, e.file, e.line)
-            break
-    table = circuit.passives
-    for column in (table.a, table.b):
-        try:
-            k = column.index(node)  # a scan in C; a finding or two per run
-        except ValueError:
-            continue
-        if best is None or 2 * k < best[0]:
-            best = (2 * k, table.files[k], table.lines[k])
-    return (best[1], best[2]) if best else (default, None)
+    first = circuit.first_use(node)
+    return (first.file, first.line) if first is not None else (default, None)
 
 
 def miller_node(ctx) -> list[Finding]:

@@ -72,8 +72,8 @@ def audit(analysis, circuit, patterns: dict[str, str], origin: str | None,
         if not any(fnmatch.fnmatchcase(n, pattern) for n in names):
             out.append(Problem("unused", where, line, pattern,
                                f"the waiver {pattern!r} matches no capacitor of {analysis.netlist}"))
-    for e in circuit.general:
-        found = inline_waiver(e.comment) if e.comment else None
+    for e in circuit.commented():
+        found = inline_waiver(e.comment)
         if found is None:
             continue
         part, reason = found
@@ -94,7 +94,7 @@ def audit(analysis, circuit, patterns: dict[str, str], origin: str | None,
 
 def resolve(analysis, circuit, patterns: dict[str, str], origin: str | None) -> dict[str, Waiver]:
     """Capacitor name -> the waiver that applies to it."""
-    comments = {e.name: e.comment for e in circuit.general if e.comment}  # plain table rows have none
+    comments = {e.name: e.comment for e in circuit.commented()}
     out: dict[str, Waiver] = {}
     for cap in analysis.capacitors:
         owner = cap.device or cap.name

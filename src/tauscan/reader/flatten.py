@@ -256,7 +256,7 @@ class Flattener:
         before)."""
         base = len(self.circuit.passives) - run.lo  # rows before the run's first
         try:  # (a model card in error, or a value: the piecewise path says which comes first)
-            elements = self._device_elements(frame, run, base)
+            elements = self._device_elements(frame, run)
             if elements is None:
                 return False
             rows = self._rows(frame, run, run.lo, run.hi)
@@ -271,7 +271,7 @@ class Flattener:
             self._rebuild_names()
             return False
         self._commit_rows(run, *rows, checked=True)
-        self.circuit.general += elements
+        self.circuit.add_many(elements, map(base.__add__, run.at))
         return True
 
     def _rebuild_names(self) -> None:
@@ -281,17 +281,12 @@ class Flattener:
 
     def _first_at(self, name: str) -> str:
         """``file:line`` of the element of that name taken before."""
-        table = self.circuit.passives
-        if name in table.names:
-            row = table.names.index(name)
-            return f"{table.files[row]}:{table.lines[row]}"
-        element = next(e for e in self.circuit.general if e.name == name)
+        element = self.circuit.element(name)
         return f"{element.file}:{element.line}"
 
-    def _device_elements(self, frame: Frame, run: PlainRun, base: int) -> list[Element] | None:
-        """:meth:`_device_element` of every plain MOSFET line of a run, word columns at a time
-        (``base``: table rows before the run's first row); None when one of them needs the card
-        path.  Lines whose parameters read the same share one dictionary of them."""
+    def _device_elements(self, frame: Frame, run: PlainRun) -> list[Element] | None:
+        """:meth:`_device_element` of every plain MOSFET line of a run, word columns at a time;
+        None when one of them needs the card path.  Lines whose parameters read the same share one dictionary of them."""
         # a last word '.' on every line: the seventh part is then the parameters' text and it
         text = " .\n".join(run.devices).lower() + " ."
         parts = list(map(_SEVEN, text.split("\n")))
@@ -323,8 +318,7 @@ class Flattener:
             names = list(map(frame.prefix.__add__, names))
         count = len(parts)
         return list(map(Element, names, repeat("m", count), nodes, repeat(None, count), models, params,
-                        repeat(run.file, count), run.device_lines, repeat(None, count), repeat((), count),
-                        repeat("", count), map(base.__add__, run.at)))
+                        repeat(run.file, count), run.device_lines))
 
     def _rows(self, frame: Frame, run: PlainRun, lo: int, hi: int) -> tuple:
         """Rows ``lo`` to ``hi`` of a run's columns evaluated and checked, not yet taken:
@@ -437,8 +431,7 @@ class Flattener:
         self.names.add(element.name)
         if element.kind == "c" and element.value == 0:
             self.circuit.warnings.append(f"{card.file}:{card.line}: capacitor {element.name} has zero value")
-        element.rows_before = len(self.circuit.passives)
-        self.circuit.general.append(element)
+        self.circuit.add(element)
 
     def _instance(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Frame:
         pos = [f for f in fields[1:] if f[0] != "p"]

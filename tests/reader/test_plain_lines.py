@@ -9,7 +9,7 @@ from hypothesis import strategies as st
 from tauscan.errors import ExpressionError, NetlistSyntaxError
 from tauscan.reader import lines as lines_mod
 from tauscan.reader import read_netlist
-from tauscan.reader.fields import grammar_fields
+from tauscan.reader.fields import Param, Word, grammar_fields
 from tauscan.reader.lines import PLAIN_BLOCK, PLAIN_DEVICE, PLAIN_LINE, Card
 
 from tests.conftest import examples
@@ -41,8 +41,8 @@ def _agree(text: str) -> None:
         return  # the card path reads it
     kind, fields = grammar_fields(Card(text, "f", 1))
     assert kind == "element", text
-    assert [f[0] for f in fields] == ["w"] * 4, text
-    assert [f[1].lower() for f in fields] == [g.lower() for g in match.groups()], text
+    assert [type(f) for f in fields] == [Word] * 4, text
+    assert [f.text.lower() for f in fields] == [g.lower() for g in match.groups()], text
 
 
 @settings(max_examples=examples(600), deadline=None)
@@ -81,10 +81,10 @@ def test_a_plain_mosfet_line_is_what_the_grammar_reads(text):
     kind, fields = grammar_fields(Card(text, "f", 1))
     assert kind == "element", text
     words = text.lower().split()
-    assert [f[0] for f in fields] == ["w"] * 6 + ["p"] * (len(words) - 6), text
-    assert [f[1].lower() for f in fields[:6]] == words[:6], text
+    assert [type(f) for f in fields] == [Word] * 6 + [Param] * (len(words) - 6), text
+    assert [f.text.lower() for f in fields[:6]] == words[:6], text
     pairs = "=".join(words[6:]).split("=")
-    assert [(f[1][0], f[1][1][1].lower()) for f in fields[6:]] == list(zip(pairs[0::2], pairs[1::2])), text
+    assert [(f.key, f.value.text.lower()) for f in fields[6:]] == list(zip(pairs[0::2], pairs[1::2])), text
 
 
 NETLIST = """mixed plain and card lines

@@ -12,7 +12,7 @@ from typing import Protocol
 
 from tauscan.circuit import Element, SourceSpec, Waveform
 from tauscan.errors import NetlistSyntaxError, did_you_mean
-from tauscan.reader.fields import Field
+from tauscan.reader.fields import VALUE_TYPES, Field, Group, Param, Word, show
 from tauscan.reader.lines import Card, PlainValueCard
 
 WAVEFORMS = frozenset(["pulse", "sin", "pwl", "exp", "sffm", "am"])
@@ -21,7 +21,7 @@ _SOURCE_WORDS = WAVEFORMS | {"dc", "ac"}
 
 def _valueish(f: Field) -> bool:
     """A field that can stand for a value in a source card (not one of its keywords)."""
-    return f[0] in ("b", "q") or (f[0] == "w" and f[1].lower() not in _SOURCE_WORDS)
+    return isinstance(f, VALUE_TYPES) and (type(f) is not Word or f.text.lower() not in _SOURCE_WORDS)
 
 
 class Frame(Protocol):
@@ -33,39 +33,31 @@ class Frame(Protocol):
 
 
 def _need(pos: list[Field], count: int, card: Card, what: str) -> None:
-    if len(pos) >= count and all(f[0] == "w" for f in pos[:count]):
+    if len(pos) >= count and all(type(f) is Word for f in pos[:count]):
         return
     if len(pos) < count:
-        offset = pos[-1][2] + len(str(pos[-1][1])) if pos else len(card.text.split()[0])
+        offset = pos[-1].offset + len(show(pos[-1])) if pos else len(card.text.split()[0])
         raise card.error(NetlistSyntaxError, f"missing {what}", offset)
     for f in pos[:count]:
-        if f[0] != "w":
-            raise card.error(NetlistSyntaxError, f"expected a node name here ({what})", f[2])
+        if type(f) is not Word:
+            raise card.error(NetlistSyntaxError, f"expected a node name here ({what})", f.offset)
 
 
 def _nodes(pos: list[Field], count: int, frame: Frame) -> tuple[str, ...]:
     node = frame.node
-    return tuple([node(f[1]) for f in pos[:count]])
+    return tuple([node(f.text) for f in pos[:count]])
 
 
 def _params(params: list[Field], card: Card, frame: Frame) -> dict[str, float]:
     if not params:
         return {}
-    return {f[1][0]: frame.value(f[1][1], card) for f in params}
+    return {f.key: frame.value(f.value, card) for f in params}
 
 
 def _extra(pos: list[Field], start: int, card: Card) -> None:
     if len(pos) > start:
         f = pos[start]
-        raise card.error(NetlistSyntaxError, f"unexpected field {_show(f)!r}", f[2])
-
-
-def _show(f: Field) -> str:
-    if f[0] == "g":
-        return "(...)"
-    if f[0] == "p":
-        return f"{f[1][0]}=..."
-    return str(f[1])
+        raise card.error(NetlistSyntaxError, f"unexpected field {show(f)!r}", f.offset)
 
 
 _PASSIVE_UNIT = {"r": "resistance", "c": "capacitance", "l": "inductance"}
@@ -83,11 +75,11 @@ def check_passive_value(letter: str, value: float, card: Card | PlainValueCard, 
 def passive(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
     """R, C, L: two nodes and a value (positional, or ``r=``/``c=``/``l=``/``value=``)."""
     unit = _PASSIVE_UNIT[letter]
-    if len(pos) < 2 or pos[0][0] != "w" or pos[1][0] != "w":
+    if len(pos) < 2 or type(pos[0]) is not Word or type(pos[1]) is not Word:
         _need(pos, 2, card, "the two nodes")
     values = _params(params, card, frame) if params else {}
     model = None
-    if len(pos) >= 3 and pos[2][0] in ("w", "b", "q"):
+    if len(pos) >= 3 and isinstance(pos[2], VALUE_TYPES):
         value = frame.value(pos[2], card)
         _extra(pos, 3, card)
     else:
@@ -98,13 +90,13 @@ def passive(letter: str, name: str, pos: list[Field], params: list[Field], card:
         else:
             raise card.error(NetlistSyntaxError, f"missing {unit} value", len(card.text.rstrip()))
         _extra(pos, 2, card)
-    check_passive_value(letter, value, card, pos[2][2] if len(pos) > 2 else 0)
+    check_passive_value(letter, value, card, pos[2].offset if len(pos) > 2 else 0)
     node = frame.node
-    return Element(name, letter, (node(pos[0][1]), node(pos[1][1])), value, model, values, card.file, card.line, None, (), card.comment)
+    return Element(name, letter, (node(pos[0].text), node(pos[1].text)), value, model, values, card.file, card.line, None, (), card.comment)
 
 
-def _waveform(kind: str, group: Field, card: Card, frame: Frame) -> Waveform:
-    args = tuple(frame.value(f, card) for f in group[1] if f[0] != "p")
+def _waveform(kind: str, group: Group, card: Card, frame: Frame) -> Waveform:
+    args = tuple(frame.value(f, card) for f in group.items if type(f) is not Param)
     return Waveform(kind, args)
 
 
@@ -115,7 +107,7 @@ def source(letter: str, name: str, pos: list[Field], params: list[Field], card: 
     i = 2
     while i < len(pos):
         f = pos[i]
-        word = f[1].lower() if f[0] == "w" else ""
+        word = f.text.lower() if type(f) is Word else ""
         if word == "dc" and i + 1 < len(pos) and _valueish(pos[i + 1]):
             spec.dc = frame.value(pos[i + 1], card)
             spec.dc_given = True
@@ -129,17 +121,17 @@ def source(letter: str, name: str, pos: list[Field], params: list[Field], card: 
                 if i < len(pos) and _valueish(pos[i]):
                     spec.ac_phase = frame.value(pos[i], card)
                     i += 1
-        elif word in WAVEFORMS and i + 1 < len(pos) and pos[i + 1][0] == "g":
+        elif word in WAVEFORMS and i + 1 < len(pos) and type(pos[i + 1]) is Group:
             spec.waveform = _waveform(word, pos[i + 1], card, frame)
             i += 2
         elif word in WAVEFORMS:
-            raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments in parentheses", f[2])
+            raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments in parentheses", f.offset)
         elif _valueish(f) and not spec.dc_given:
             spec.dc = frame.value(f, card)
             spec.dc_given = True
             i += 1
         else:
-            raise card.error(NetlistSyntaxError, f"unexpected field {_show(f)!r} in a source", f[2])
+            raise card.error(NetlistSyntaxError, f"unexpected field {show(f)!r} in a source", f.offset)
     values = _params(params, card, frame)
     if "dc" in values:
         spec.dc, spec.dc_given = values.pop("dc"), True
@@ -153,7 +145,7 @@ def voltage_controlled(letter: str, name: str, pos: list[Field], params: list[Fi
     _behavioural(pos, params, card)
     _need(pos, 4, card, "the output and controlling nodes")
     values = _params(params, card, frame)
-    if len(pos) >= 5 and pos[4][0] in ("w", "b", "q"):
+    if len(pos) >= 5 and isinstance(pos[4], VALUE_TYPES):
         gain = frame.value(pos[4], card)
         _extra(pos, 5, card)
     elif "gain" in values or "gm" in values:
@@ -168,50 +160,50 @@ def current_controlled(letter: str, name: str, pos: list[Field], params: list[Fi
     """F, H: output nodes, controlling voltage source, gain."""
     _behavioural(pos, params, card)
     _need(pos, 3, card, "the output nodes and the controlling source")
-    if len(pos) < 4 or pos[3][0] not in ("w", "b", "q"):
+    if len(pos) < 4 or not isinstance(pos[3], VALUE_TYPES):
         raise card.error(NetlistSyntaxError, "missing gain", len(card.text.rstrip()))
     gain = frame.value(pos[3], card)
     _extra(pos, 4, card)
-    control = (frame.prefix + pos[2][1].lower(),)
+    control = (frame.prefix + pos[2].text.lower(),)
     return Element(name, letter, _nodes(pos, 2, frame), gain, None, _params(params, card, frame), card.file, card.line, control=control, comment=card.comment)
 
 
 def _behavioural(pos: list[Field], params: list[Field], card: Card) -> None:
     for f in pos:
-        if f[0] == "w" and f[1].lower() in ("poly", "table", "laplace", "cur", "vol"):
-            raise card.error(NetlistSyntaxError, f"{f[1].upper()} controlled sources are not supported; use a linear gain", f[2])
+        if type(f) is Word and f.text.lower() in ("poly", "table", "laplace", "cur", "vol"):
+            raise card.error(NetlistSyntaxError, f"{f.text.upper()} controlled sources are not supported; use a linear gain", f.offset)
     for f in params:
-        if f[1][0] in ("value", "table", "laplace"):
-            raise card.error(NetlistSyntaxError, "behavioural sources are not supported; use a linear gain", f[2])
+        if f.key in ("value", "table", "laplace"):
+            raise card.error(NetlistSyntaxError, "behavioural sources are not supported; use a linear gain", f.offset)
 
 
 def coupling(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
     """K: two inductors and the coupling factor (kept; it does not enter the DC point)."""
     _need(pos, 2, card, "the two inductors")
-    if len(pos) < 3 or pos[2][0] not in ("w", "b", "q"):
+    if len(pos) < 3 or not isinstance(pos[2], VALUE_TYPES):
         raise card.error(NetlistSyntaxError, "missing coupling factor", len(card.text.rstrip()))
     k = frame.value(pos[2], card)
-    control = tuple(frame.prefix + f[1].lower() for f in pos[:2])
+    control = tuple(frame.prefix + f.text.lower() for f in pos[:2])
     return Element(name, "k", (), k, None, _params(params, card, frame), card.file, card.line, control=control, comment=card.comment)
 
 
 def _device(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame, count: int, what: str) -> Element:
     _need(pos, count + 1, card, f"the {what} nodes and the model")
-    model = frame.model(pos[count][1])
+    model = frame.model(pos[count].text)
     if model is None:
         known = []
         scope = frame.definition
         while scope is not None:
             known.extend(scope.models)
             scope = scope.parent
-        raise card.error(NetlistSyntaxError, f"model {pos[count][1]!r} is not defined" + did_you_mean(pos[count][1], known),
-                         pos[count][2])
+        raise card.error(NetlistSyntaxError, f"model {pos[count].text!r} is not defined" + did_you_mean(pos[count].text, known),
+                         pos[count].offset)
     values = _params(params, card, frame)
     if len(pos) > count + 1:
-        if pos[count + 1][0] == "w" and pos[count + 1][1].lower() == "off":
+        if type(pos[count + 1]) is Word and pos[count + 1].text.lower() == "off":
             values["off"] = 1.0
             _extra(pos, count + 2, card)
-        elif pos[count + 1][0] in ("w", "b", "q"):
+        elif isinstance(pos[count + 1], VALUE_TYPES):
             values["area"] = frame.value(pos[count + 1], card)
             _extra(pos, count + 2, card)
         else:
@@ -236,7 +228,7 @@ def bipolar(letter: str, name: str, pos: list[Field], params: list[Field], card:
     substrate node (the usual SPICE reading).
     """
     _need(pos, 4, card, "collector, base and emitter nodes and the model")
-    if pos[3][0] == "w" and frame.model(pos[3][1]) is not None:
+    if type(pos[3]) is Word and frame.model(pos[3].text) is not None:
         return _device(letter, name, pos, params, card, frame, 3, "collector, base and emitter")
     return _device(letter, name, pos, params, card, frame, 4, "collector, base, emitter and substrate")
 

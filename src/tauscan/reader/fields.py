@@ -1,39 +1,91 @@
-"""A card's text -> its fields, by the Lark grammar (``grammar/netlist.lark``).
+"""A card's text -> its fields: small typed records, by the Lark grammar
+(``grammar/netlist.lark``) through a :class:`lark.Transformer`, or by a fast path.
 
-A field is a small tuple ``(kind, payload, offset)``:
+==================  ===================================================
+:class:`Word`       a word (node, model, number, keyword)
+:class:`Param`      ``key=value``; ``value`` is a Word, Braced or Quoted
+:class:`Braced`     ``{expression}``; ``text`` is inside the braces
+:class:`Quoted`     ``'expression'``; ``text`` is inside the quotes
+:class:`Text`       ``"string"``; ``text`` is inside the quotes
+:class:`Group`      ``( ... )``; ``items`` are fields
+==================  ===================================================
 
-==========  =====================================================
-``"w"``     a word (node, model, number, keyword); payload is text
-``"p"``     ``key=value``; payload is ``(key, value_field)``
-``"b"``     ``{expression}``; payload is the text inside the braces
-``"q"``     ``'expression'``; payload is the text inside the quotes
-``"s"``     ``"string"``; payload is the text inside the quotes
-``"g"``     ``( ... )``; payload is a list of fields
-==========  =====================================================
+Each record has ``offset``, the column in the card's text where it starts (inside the
+braces or quotes for those).  Stages dispatch on the record's type, never on a tag.
 
 Most element lines of a large extracted netlist are plain words and ``k=v``
 pairs.  :func:`fast_fields` splits those with ``str.split`` and gives exactly
-what the grammar gives; a test holds the two together line by line.  Anything
-else goes through the grammar.
+what the grammar gives, record types included; a test holds the two together line by
+line.  Anything else goes through the grammar.
 """
 
 from __future__ import annotations
 
 import re
+from functools import partial
 from itertools import accumulate, repeat
 from operator import add
+from typing import NamedTuple, Union
 
-from lark import Token, Tree
+from lark import Transformer
 from lark.exceptions import UnexpectedCharacters, UnexpectedInput, UnexpectedToken
 
 from tauscan.errors import NetlistSyntaxError
 from tauscan.reader.grammar import card_parser
 from tauscan.reader.lines import Card
 
-Field = tuple
+
+class Word(NamedTuple):
+    """A word: a node, a model, a number or a keyword, as written."""
+
+    text: str
+    offset: int
+
+
+class Param(NamedTuple):
+    """``key=value``: the key in lower case, the value a :data:`Value` field."""
+
+    key: str
+    value: "Word | Braced | Quoted"
+    offset: int
+
+
+class Braced(NamedTuple):
+    """``{expression}``: the text inside the braces."""
+
+    text: str
+    offset: int
+
+
+class Quoted(NamedTuple):
+    """``'expression'``: the text inside the quotes."""
+
+    text: str
+    offset: int
+
+
+class Text(NamedTuple):
+    """``"string"`` (a file name, say): the text inside the quotes."""
+
+    text: str
+    offset: int
+
+
+class Group(NamedTuple):
+    """``( ... )``: the fields inside, commas dropped."""
+
+    items: list
+    offset: int
+
+
+Field = Union[Word, Param, Braced, Quoted, Text, Group]
+#: the fields that can stand for a number (a word or an expression)
+VALUE_TYPES = (Word, Braced, Quoted)
 
 _NOT_FAST = re.compile(r"[{}'\"(),]")
 _TOKEN = re.compile(r"\S+")
+# records made in C (``tuple.__new__`` bound by partial): no Python call per word
+_words = partial(map, partial(tuple.__new__, Word))
 
 
 def fast_fields(text: str) -> list[Field] | None:
@@ -42,15 +94,15 @@ def fast_fields(text: str) -> list[Field] | None:
         return None
     if "  " in text or "\t" in text or text[0] == " " or text[-1] == " ":
         return _fields_of_words([(m.group(), m.start()) for m in _TOKEN.finditer(text)])
-    # single spaces: the words, their offsets and the tuples are all made by C loops
+    # single spaces: the words, their offsets and the records are all made by C loops
     words = text.split(" ")
     if not words[0][0].isalpha() or "=" in words[0]:
         return None
-    out: list[Field] = list(zip(repeat("w"), words, accumulate(map(add, map(len, words), repeat(1)), initial=0)))
+    out: list[Field] = list(_words(zip(words, accumulate(map(add, map(len, words), repeat(1)), initial=0))))
     if " ." in text and any(w[0] == "." and _directive_like(w) for w in words):
         return None
     if "=" in text:
-        for i, (_, word, pos) in enumerate(out):
+        for i, (word, pos) in enumerate(out):
             if "=" in word:
                 field = _param(word, pos)
                 if field is None:
@@ -59,12 +111,12 @@ def fast_fields(text: str) -> list[Field] | None:
     return out
 
 
-def _param(word: str, pos: int) -> Field | None:
+def _param(word: str, pos: int) -> Param | None:
     eq = word.find("=")
     key, value = word[:eq], word[eq + 1 :]
     if not key or not value or "=" in value or _directive_like(key) or _directive_like(value):
         return None
-    return ("p", (key.lower(), ("w", value, pos + eq + 1)), pos)
+    return Param(key.lower(), Word(value, pos + eq + 1), pos)
 
 
 def _fields_of_words(words: list[tuple[str, int]]) -> list[Field] | None:
@@ -79,8 +131,8 @@ def _fields_of_words(words: list[tuple[str, int]]) -> list[Field] | None:
         elif word[0] == "." and _directive_like(word):
             return None
         else:
-            append(("w", word, pos))
-    if not out or out[0][0] != "w" or not out[0][1][0].isalpha():
+            append(Word(word, pos))
+    if not out or type(out[0]) is not Word or not out[0].text[0].isalpha():
         return None
     return out
 
@@ -90,15 +142,56 @@ def _directive_like(word: str) -> bool:
     return word[0] == "." and (len(word) < 2 or word[1].isalpha() or word[1] == "_")
 
 
+_COMMA = object()
+
+
+class _ToFields(Transformer):
+    """The grammar's tree -> typed field records (rule names as in ``netlist.lark``)."""
+
+    def word(self, children) -> Word:
+        tok = children[0]
+        return Word(str(tok), tok.start_pos)
+
+    def param(self, children) -> Param:
+        key, value = children
+        return Param(str(key).lower(), value, key.start_pos)
+
+    def braced(self, children) -> Braced:
+        tok = children[0]
+        return Braced(str(tok)[1:-1], tok.start_pos + 1)
+
+    def quoted(self, children) -> Quoted:
+        tok = children[0]
+        return Quoted(str(tok)[1:-1], tok.start_pos + 1)
+
+    def string(self, children) -> Text:
+        tok = children[0]
+        return Text(str(tok)[1:-1], tok.start_pos + 1)
+
+    def group(self, children) -> Group:
+        inner = [c for c in children if c is not _COMMA]
+        return Group(inner, inner[0].offset - 1 if inner else 0)
+
+    def comma(self, children):
+        return _COMMA
+
+    def _card(self, children) -> list[Field]:
+        first, *rest = children  # the card's first word or directive: a token
+        return [Word(str(first), first.start_pos)] + [c for c in rest if c is not _COMMA]
+
+    element = control = _card
+
+
+_TO_FIELDS = _ToFields()
+
+
 def grammar_fields(card: Card) -> tuple[str, list[Field]]:
     """``("element"|"control", fields)`` of a card, parsed by the grammar."""
     try:
         tree = card_parser().parse(card.text)
     except UnexpectedInput as exc:
         raise _syntax_error(card, exc) from None
-    fields = [_field(child) for child in tree.children]
-    fields = [f for f in fields if f[0] != "c"]
-    return tree.data, fields
+    return tree.data, _TO_FIELDS.transform(tree)
 
 
 def card_fields(card: Card) -> tuple[str, list[Field]]:
@@ -110,27 +203,13 @@ def card_fields(card: Card) -> tuple[str, list[Field]]:
     return grammar_fields(card)
 
 
-def _field(node) -> Field:
-    if isinstance(node, Token):  # the card's first word or directive
-        return ("w", str(node), node.start_pos)
-    kind = node.data
-    children = node.children
-    if kind == "word":
-        tok = children[0]
-        return ("w", str(tok), tok.start_pos)
-    if kind == "param":
-        key, value = children
-        return ("p", (str(key).lower(), _field(value)), key.start_pos)
-    if kind in ("braced", "quoted", "string"):
-        tok = children[0]
-        return (kind[0], str(tok)[1:-1], tok.start_pos + 1)
-    if kind == "group":
-        inner = [_field(c) for c in children if not (isinstance(c, Tree) and c.data == "comma")]
-        pos = inner[0][2] - 1 if inner else 0
-        return ("g", inner, pos)
-    if kind == "comma":
-        return ("c", ",", 0)
-    raise AssertionError(f"unexpected rule {kind}")
+def show(f: Field) -> str:
+    """A field as a message shows it."""
+    if type(f) is Group:
+        return "(...)"
+    if type(f) is Param:
+        return f"{f.key}=..."
+    return f.text
 
 
 def _syntax_error(card: Card, exc: UnexpectedInput) -> NetlistSyntaxError:

@@ -15,7 +15,7 @@ from operator import attrgetter, itemgetter, methodcaller
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
 from tauscan.reader.elements import RULES, check_passive_value
-from tauscan.reader.fields import Field, card_fields
+from tauscan.reader.fields import Field, Group, Param, Word, card_fields, show
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
@@ -108,8 +108,8 @@ class Frame:
         return self.prefix + name
 
     def value(self, f: Field, card: Card) -> float:
-        if f[0] == "w":  # most values are plain numbers, and few distinct ones
-            number = _plain_number(f[1])
+        if type(f) is Word:  # most values are plain numbers, and few distinct ones
+            number = _plain_number(f.text)
             if number is not None:
                 return number
         return field_value(f, card, self.scope)
@@ -169,16 +169,16 @@ class Flattener:
         return flat
 
     def _model(self, flat: str, fields: list[Field], card: Card, frame: Frame) -> Model:
-        mtype = fields[0][1].lower()
+        mtype = fields[0].text.lower()
         params: dict[str, float] = {}
         items: list[Field] = []
         for f in fields[1:]:
-            items.extend(f[1] if f[0] == "g" else [f])
+            items.extend(f.items if type(f) is Group else [f])
         for f in items:
-            if f[0] == "p":
-                params[f[1][0]] = frame.value(f[1][1], card)
-            elif f[0] == "g":
-                raise card.error(NetlistSyntaxError, "nested parentheses in '.model'", f[2])
+            if type(f) is Param:
+                params[f.key] = frame.value(f.value, card)
+            elif type(f) is Group:
+                raise card.error(NetlistSyntaxError, "nested parentheses in '.model'", f.offset)
         return Model(flat, mtype, params, card.file, card.line)
 
     # -- expansion ---------------------------------------------------------------
@@ -229,7 +229,7 @@ class Flattener:
                 try:
                     self.circuit.options[key] = root.value(f, card)
                 except TauscanError:
-                    self.circuit.options[key] = str(f[1])
+                    self.circuit.options[key] = show(f)
 
     def _plain_run(self, frame: Frame, run: PlainRun) -> None:
         """A run of plain R and C lines, column by column, into the circuit's table (the checks
@@ -375,7 +375,7 @@ class Flattener:
         if element is None:
             card = item.card()
             fields = card_fields(card)[1]
-            self._add(self._element(frame, fields[0][1].lower(), fields, card), card)
+            self._add(self._element(frame, fields[0].text.lower(), fields, card), card)
             return
         self._add(element, item)
 
@@ -403,7 +403,7 @@ class Flattener:
                 continue
             value = _plain_number(word)
             if value is None:  # a parameter's name, or out of range
-                value = field_value(("w", word, 0), PlainValueCard(run, lo + k, word), frame.scope)
+                value = field_value(Word(word, 0), PlainValueCard(run, lo + k, word), frame.scope)
             values[k] = value
 
     def _duplicate_in_run(self, run: PlainRun, lo: int, names: list[str]) -> None:
@@ -421,7 +421,7 @@ class Flattener:
         pos: list[Field] = []
         params: list[Field] = []
         for f in fields[1:]:
-            (params if f[0] == "p" else pos).append(f)
+            (params if type(f) is Param else pos).append(f)
         return RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
 
     def _add(self, element: Element, card: Card | DeviceLine) -> None:
@@ -434,42 +434,42 @@ class Flattener:
         self.circuit.add(element)
 
     def _instance(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Frame:
-        pos = [f for f in fields[1:] if f[0] != "p"]
-        params = [f for f in fields[1:] if f[0] == "p"]
-        if not pos or pos[-1][0] != "w":
+        pos = [f for f in fields[1:] if type(f) is not Param]
+        params = [f for f in fields[1:] if type(f) is Param]
+        if not pos or type(pos[-1]) is not Word:
             raise card.error(HierarchyError, "an instance needs its nodes and a subcircuit name", 0)
         sub_field = pos[-1]
-        definition = frame.definition.find_subckt(sub_field[1].lower())
+        definition = frame.definition.find_subckt(sub_field.text.lower())
         if definition is None:
             known = []
             scope = frame.definition
             while scope is not None:
                 known.extend(scope.subckts)
                 scope = scope.parent
-            raise card.error(HierarchyError, f"unknown subcircuit {sub_field[1]!r}" + did_you_mean(sub_field[1], known),
-                             sub_field[2])
+            raise card.error(HierarchyError, f"unknown subcircuit {sub_field.text!r}" + did_you_mean(sub_field.text, known),
+                             sub_field.offset)
         nodes = pos[:-1]
         for f in nodes:
-            if f[0] != "w":
-                raise card.error(NetlistSyntaxError, "expected a node name here", f[2])
+            if type(f) is not Word:
+                raise card.error(NetlistSyntaxError, "expected a node name here", f.offset)
         if len(nodes) != len(definition.pins):
             raise card.error(
                 HierarchyError,
                 f"subcircuit {definition.name!r} has {len(definition.pins)} pins, the instance gives {len(nodes)}",
-                sub_field[2],
+                sub_field.offset,
             )
         if frame.depth + 1 > MAX_DEPTH:
             raise card.error(HierarchyError, f"subcircuit instances nested deeper than {MAX_DEPTH}", 0)
         values: dict[str, float] = {}
         for f in params:
-            key = f[1][0]
+            key = f.key
             if key not in definition.defaults and key not in definition.params:
-                raise card.error(HierarchyError, f"subcircuit {definition.name!r} has no parameter {key!r}", f[2])
-            values[key] = frame.value(f[1][1], card)
+                raise card.error(HierarchyError, f"subcircuit {definition.name!r} has no parameter {key!r}", f.offset)
+            values[key] = frame.value(f.value, card)
         raw = dict(definition.params)
         raw.update(definition.defaults)
         scope = ParamScope(raw, frame.scope, values)
-        pins = {pin: frame.node(f[1]) for pin, f in zip(definition.pins, nodes)}
+        pins = {pin: frame.node(f.text) for pin, f in zip(definition.pins, nodes)}
         prefix = frame.prefix + name + "."
         return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1)
 
@@ -481,11 +481,11 @@ def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
         if type(item) is not tuple or item[0][0] != "x":
             continue
         name, fields, card = item
-        pos = [f for f in fields[1:] if f[0] not in ("p",)]
-        if pos and pos[-1][0] == "w":
-            target = definition.find_subckt(pos[-1][1].lower())
+        pos = [f for f in fields[1:] if type(f) is not Param]
+        if pos and type(pos[-1]) is Word:
+            target = definition.find_subckt(pos[-1].text.lower())
             if target is not None:
-                out.append((target, card, pos[-1][2]))
+                out.append((target, card, pos[-1].offset))
     return out
 
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
-from tauscan.reader.fields import Field, card_fields
+from tauscan.reader.fields import Field, Param, Quoted, Text, Word, card_fields
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, logical_items, read_chunks
 
 #: Deepest chain of nested ``.include`` files.
@@ -66,12 +66,12 @@ class Netlist:
 
 
 def _word(f: Field) -> str | None:
-    return f[1] if f[0] == "w" else None
+    return f.text if type(f) is Word else None
 
 
 def _filename(f: Field) -> str | None:
-    if f[0] in ("s", "q", "w"):
-        return f[1]
+    if type(f) in (Text, Quoted, Word):
+        return f.text
     return None
 
 
@@ -131,18 +131,18 @@ class Loader:
             if kind == "element":
                 self._element(card, fields)
                 continue
-            directive = fields[0][1].lower()
-            if directive == ".lib" and len(fields) == 2 and fields[1][0] == "w":
+            directive = fields[0].text.lower()
+            if directive == ".lib" and len(fields) == 2 and type(fields[1]) is Word:
                 # a section definition inside a file read whole: not selected, skip it
                 skip_section = card
                 continue
             self._control(card, directive, fields[1:])
 
     def _element(self, card: Card, fields: list[Field]) -> None:
-        name = fields[0][1].lower()
+        name = fields[0].text.lower()
         letter = name[0]
         if letter not in ELEMENT_KINDS:
-            raise card.error(NetlistSyntaxError, f"unknown element letter {letter!r} (element {fields[0][1]!r})", fields[0][2])
+            raise card.error(NetlistSyntaxError, f"unknown element letter {letter!r} (element {fields[0].text!r})", fields[0].offset)
         self.stack[-1].elements.append((name, fields, card))
 
     def _control(self, card: Card, directive: str, args: list[Field]) -> None:
@@ -156,24 +156,23 @@ class Loader:
             if len(self.stack) == 1:
                 raise card.error(HierarchyError, "'.ends' with no open '.subckt'", 0)
             closing = self.stack[-1]
-            if args and _word(args[0]) is not None and args[0][1].lower() != closing.name:
+            if args and _word(args[0]) is not None and args[0].text.lower() != closing.name:
                 raise card.error(
-                    HierarchyError, f"'.ends {args[0][1]}' closes '.subckt {closing.name}'", args[0][2]
+                    HierarchyError, f"'.ends {args[0].text}' closes '.subckt {closing.name}'", args[0].offset
                 )
             self.stack.pop()
         elif name == "model":
             if len(args) < 2 or _word(args[0]) is None or _word(args[1]) is None:
                 raise card.error(NetlistSyntaxError, "'.model' needs a name and a type", 0)
-            model_name = args[0][1].lower()
+            model_name = args[0].text.lower()
             current.models[model_name] = (args[1:], card)
         elif name == "param" or name == "params":
             if not args:
                 raise card.error(NetlistSyntaxError, "'.param' with no assignment", 0)
             for f in args:
-                if f[0] != "p":
-                    raise card.error(NetlistSyntaxError, "'.param' takes name=value pairs", f[2])
-                key, value = f[1]
-                current.params[key] = (value, card)
+                if type(f) is not Param:
+                    raise card.error(NetlistSyntaxError, "'.param' takes name=value pairs", f.offset)
+                current.params[f.key] = (f.value, card)
         elif name in ("include", "inc"):
             if not args or _filename(args[0]) is None:
                 raise card.error(IncludeError, "'.include' needs a file name", 0)
@@ -181,23 +180,23 @@ class Loader:
         elif name == "lib":
             if len(args) < 2 or _filename(args[0]) is None or _word(args[1]) is None:
                 raise card.error(IncludeError, "'.lib' needs a file name and a section name", 0)
-            self._include(card, args[0], args[1][1].lower())
+            self._include(card, args[0], args[1].text.lower())
         elif name == "endl":
             pass
         elif name == "global":
             for f in args:
-                if f[0] == "w":
-                    net.global_nodes.add(f[1].lower())
+                if type(f) is Word:
+                    net.global_nodes.add(f.text.lower())
         elif name == "temp":
             if not args:
                 raise card.error(NetlistSyntaxError, "'.temp' needs a value", 0)
             net.temp = (args[0], card)
         elif name in ("option", "options", "opt"):
             for f in args:
-                if f[0] == "p":
-                    net.options[f[1][0]] = (f[1][1], card)
-                elif f[0] == "w":
-                    net.options[f[1].lower()] = "on"
+                if type(f) is Param:
+                    net.options[f.key] = (f.value, card)
+                elif type(f) is Word:
+                    net.options[f.text.lower()] = "on"
         elif name in SKIPPED_CARDS:
             pass
         else:
@@ -206,48 +205,48 @@ class Loader:
     def _subckt(self, card: Card, args: list[Field]) -> None:
         if not args or _word(args[0]) is None:
             raise card.error(HierarchyError, "'.subckt' needs a name", 0)
-        name = args[0][1].lower()
+        name = args[0].text.lower()
         pins: list[str] = []
         defaults: dict[str, tuple[Field, Card]] = {}
         for f in args[1:]:
-            if f[0] == "w":
-                word = f[1].lower()
+            if type(f) is Word:
+                word = f.text.lower()
                 if word in ("params:", "param:"):
                     continue
                 if defaults:
-                    raise card.error(HierarchyError, f"pin {f[1]!r} after the parameters", f[2])
+                    raise card.error(HierarchyError, f"pin {f.text!r} after the parameters", f.offset)
                 pins.append(word)
-            elif f[0] == "p":
-                defaults[f[1][0]] = (f[1][1], card)
+            elif type(f) is Param:
+                defaults[f.key] = (f.value, card)
             else:
-                raise card.error(NetlistSyntaxError, "unexpected field in '.subckt'", f[2])
+                raise card.error(NetlistSyntaxError, "unexpected field in '.subckt'", f.offset)
         parent = self.stack[-1]
         definition = Definition(name, pins, card, parent, defaults)
         if name in parent.subckts:
             previous = parent.subckts[name].card
             assert previous is not None
             raise card.error(
-                HierarchyError, f"subcircuit {name!r} is defined twice (first at {previous.file}:{previous.line})", args[0][2]
+                HierarchyError, f"subcircuit {name!r} is defined twice (first at {previous.file}:{previous.line})", args[0].offset
             )
         parent.subckts[name] = definition
         self.stack.append(definition)
 
     def _include(self, card: Card, name_field: Field, section: str | None) -> None:
-        raw = name_field[1]
+        raw = name_field.text
         base = os.path.dirname(card.file)
         path = os.path.normpath(os.path.join(base, os.path.expanduser(raw)))
         real = os.path.realpath(path)
         what = "'.lib'" if section else "'.include'"
         if section is None and any(r == real for r, _ in self.include_chain):
-            raise card.error(IncludeError, f"{what} of {path} includes itself (an include cycle)", name_field[2])
+            raise card.error(IncludeError, f"{what} of {path} includes itself (an include cycle)", name_field.offset)
         if len(self.include_chain) >= MAX_INCLUDE_DEPTH:
-            raise card.error(IncludeError, f"includes nested deeper than {MAX_INCLUDE_DEPTH}", name_field[2])
+            raise card.error(IncludeError, f"includes nested deeper than {MAX_INCLUDE_DEPTH}", name_field.offset)
         if not os.path.isfile(path):
-            raise card.error(IncludeError, f"{what} file not found: {path}", name_field[2])
+            raise card.error(IncludeError, f"{what} file not found: {path}", name_field.offset)
         try:
             chunks = read_chunks(path)
         except IncludeError as exc:
-            raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field[2]) from None
+            raise card.error(IncludeError, f"{what} of {path}: {exc.message}", name_field.offset) from None
         _, cards = logical_items(chunks, path, has_title=False)
         if section is not None:
             # only the netlist's own '.lib' cards: a library's sections select each other
@@ -258,7 +257,7 @@ class Loader:
                     self.lib_used = True
             if (real, section) in self.include_chain:
                 raise card.error(IncludeError, f"{what} section {section!r} of {path} selects itself (an include cycle)",
-                                 name_field[2])
+                                 name_field.offset)
             cards = self._section(cards, section, card, name_field, path)
         self.include_chain.append((real, section))
         self.lib_depth += section is not None
@@ -294,7 +293,7 @@ class Loader:
         if not found:
             known = ", ".join(sections) or "none"
             raise card.error(
-                IncludeError, f"section {section!r} not found in {path} (sections there: {known})", name_field[2]
+                IncludeError, f"section {section!r} not found in {path} (sections there: {known})", name_field.offset
             )
         return chosen
 

@@ -11,7 +11,7 @@ import math
 
 from tauscan.errors import ExpressionError, NetlistSyntaxError, TauscanError
 from tauscan.reader.expr import evaluate
-from tauscan.reader.fields import Field
+from tauscan.reader.fields import Braced, Field, Quoted, Word
 from tauscan.reader.lines import Card
 from tauscan.units import parse_number
 
@@ -41,7 +41,7 @@ class ParamScope:
     def _resolve(self, name: str) -> float:
         value_field, card = self.raw[name]
         if name in self.busy:
-            raise card.error(ExpressionError, f"parameter {name!r} depends on itself (a parameter cycle)", value_field[2])
+            raise card.error(ExpressionError, f"parameter {name!r} depends on itself (a parameter cycle)", value_field.offset)
         self.busy.add(name)
         try:
             value = field_value(value_field, card, self)
@@ -53,16 +53,16 @@ class ParamScope:
 
 def field_value(f: Field, card: Card, scope: ParamScope) -> float:
     """The number a value field stands for, evaluated in ``scope``."""
-    kind, payload, offset = f
-    if kind == "w":
-        value = parse_number(payload)
+    offset = f.offset
+    if type(f) is Word:
+        value = parse_number(f.text)
         if value is not None:
             if not math.isfinite(value):
-                raise card.error(NetlistSyntaxError, f"value {payload!r} is out of range", offset)
+                raise card.error(NetlistSyntaxError, f"value {f.text!r} is out of range", offset)
             return value
-        text = payload
-    elif kind in ("b", "q"):
-        text = payload
+        text = f.text
+    elif type(f) in (Braced, Quoted):
+        text = f.text
     else:
         raise card.error(NetlistSyntaxError, "expected a value here", offset)
     try:

@@ -16,7 +16,7 @@ from scipy.optimize import brentq
 
 from tauscan import api
 from tauscan.devices import registry
-from tauscan.devices.base import DeviceOP, SmallSignal
+from tauscan.devices.base import CapacitanceMatrix, DeviceOP, SmallSignal
 from tauscan.network import Triplets
 
 
@@ -67,8 +67,9 @@ class CubicGroup:
 def cubic_stamps(dev):
     out = SmallSignal()
     out.conductances.append(("g", dev.nodes["p"], dev.nodes["n"], dev.values["g"]))
-    if dev.caps.get("c"):
-        out.capacitors.append(("c", dev.nodes["p"], dev.nodes["n"], dev.caps["c"]))
+    if dev.caps.get("c"):  # one two-terminal part: its terminal matrix is C0 [[1, -1], [-1, 1]]
+        out.capacitance = CapacitanceMatrix.from_pairs(("p", "n"), (dev.nodes["p"], dev.nodes["n"]),
+                                                       [("c", 0, 1, dev.caps["c"])])
     return out
 
 

@@ -19,6 +19,8 @@ from tauscan.analysis.probe import SIGNAL_FLOOR, Drive, Probe, choose_probe, dri
 from tauscan.analysis.response import F3DB_MAX_HZ, Response, f3db, response_curve
 from tauscan.analysis.result import Analysis, CapacitorResult, NodeResult
 from tauscan.analysis.systems import Factors
+from tauscan.analysis import transcap
+from tauscan.analysis.transcap import TransParts, trans_parts
 from tauscan.analysis.transfer import TransferTable, transfer_table
 from tauscan.errors import SelectionError
 from tauscan.units import eng
@@ -90,9 +92,10 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     warnings.extend(band.warnings)
     warnings.extend(_gmin_held(kept, table))
     inductor_tau = _inductor_time_constants(work, wfactors)
-    sum_tau = float(np.sum(table.tau)) + inductor_tau
+    trans = trans_parts(work, wfactors, settings.z_method)
+    sum_tau = float(np.sum(table.tau)) + float(np.sum(trans.tau)) + inductor_tau
     octc = 1.0 / (2 * math.pi * sum_tau) if sum_tau > 0 else None
-    if sum_tau <= 0 and len(kept.records):
+    if sum_tau <= 0 and (len(kept.records) or len(trans)):
         warnings.append("the capacitors' time constants do not add up to a positive total; the estimate is meaningless here")
     # -- the transfer: drive and probe on the analysed network ----------------------------
     b = None
@@ -106,14 +109,18 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     warnings.extend(found.notes)
     unstable = found.unstable()
     shares = np.full(len(kept.records), np.nan)
+    trans_shares = np.full(len(trans), np.nan)
     dominant = found.dominant
     # pole shares refer to the dominant pole: none when the only candidate is unstable
-    if dominant is not None and found.right is not None and found.left is not None and len(kept.records):
-        shares = poles_mod.pole_shares(work.c, found.right, found.left, kept.a_rows, kept.b_rows, kept.farads)
+    if dominant is not None and found.right is not None and found.left is not None:
+        if len(kept.records):
+            shares = poles_mod.pole_shares(work.c, found.right, found.left, kept.a_rows, kept.b_rows, kept.farads)
+        if len(trans):
+            trans_shares = transcap.pole_shares(trans, found.right, found.left, found.left @ (work.c @ found.right))
     tt = None
     if out_probe is not None:
         tt = transfer_table(wfactors, work.n_nodes, kept.raw_a, kept.raw_b, kept.farads,
-                            np.asarray(table.input_is_a, dtype=bool), b, out_probe)
+                            np.asarray(table.input_is_a, dtype=bool), b, out_probe, trans)
     transfer = _transfer(work, wfactors, b, out_probe, octc, found, settings, chosen, factors, drive, warnings)
     transfer.probe_reason = probe_reason if out_probe is not None else ""
     elmore = None
@@ -127,7 +134,8 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     # -- records (columns computed with numpy, then turned into Python lists once) --------
     excess = tc.miller_excess(table)
     caps = _capacitor_records(kept.records, table, excess, tc.cascoded_tau(table), shares, sum_tau, tt)
-    nodes = _nodes(work, kept.a_rows, kept.b_rows, table, excess, sum_tau, settings.miller_threshold, tt)
+    caps += _trans_records(trans, trans_shares, sum_tau, tt)
+    nodes = _nodes(work, kept.a_rows, kept.b_rows, table, excess, sum_tau, settings.miller_threshold, tt, trans)
     _rank(caps, nodes, settings.rank if tt is not None else "octc")
     return Analysis(
         netlist=ss.circuit.file, title=ss.circuit.title, source=transfer.source, probe=transfer.probe,
@@ -444,6 +452,36 @@ def _capacitor_records(keep, table, excess, cascoded, shares, sum_tau: float, tt
     return caps
 
 
+def _trans_records(trans: TransParts, shares: np.ndarray, sum_tau: float, tt: TransferTable | None) -> list[CapacitorResult]:
+    """The ``device:ctrans`` entries (:mod:`tauscan.analysis.transcap`): no gain, no Miller
+    factor; ``farads`` is the largest entry of the non-reciprocal part, ``ohms`` tau over it;
+    ``node_in`` the terminal node taking the largest part of it."""
+    out = []
+    for k, rec in enumerate(trans.records):
+        tau = float(trans.tau[k])
+        parts = trans.node_parts[k]
+        order = np.argsort(-np.abs(parts), kind="stable").tolist()
+        node_in = rec.nodes[order[0]]
+        node_out = rec.nodes[order[1]] if len(order) > 1 else "0"
+        farads = float(trans.farads[k])
+        removed = sum_tau - tau
+        t_tau = t_share = None
+        on = True
+        if tt is not None and k < len(tt.trans_tau):
+            t_tau = float(tt.trans_tau[k])
+            t_share = t_tau / tt.sum_tau if tt.sum_tau else None
+            on = t_tau != 0.0
+        share = float(shares[k]) if k < len(shares) and math.isfinite(shares[k]) else None
+        out.append(CapacitorResult(
+            rec.name, node_in, node_out, farads, "ctrans", None, None, 1.0, None,
+            tau / farads if farads else math.nan, tau, tau / sum_tau if sum_tau else math.nan,
+            float(parts[order[0]]), tau - float(parts[order[0]]), 0.0, share,
+            1.0 / (2 * math.pi * removed) if removed > 0 else None, None, rec.file, rec.line, rec.device, "",
+            t_tau, t_share, None, on,
+        ))
+    return out
+
+
 def _inductor_time_constants(ss: SmallSignalNetwork, factors: Factors) -> float:
     """Sum of L / R for the inductors (R: the resistance each sees with the capacitors open)."""
     net = ss.network
@@ -455,10 +493,15 @@ def _inductor_time_constants(ss: SmallSignalNetwork, factors: Factors) -> float:
     return float(sum(-e.value * wk for e, wk in zip(inductors, w)))
 
 
-def _nodes(ss, a_rows, b_rows, table, excess, sum_tau, threshold, tt: TransferTable | None) -> list[NodeResult]:
+def _nodes(ss, a_rows, b_rows, table, excess, sum_tau, threshold, tt: TransferTable | None,
+           trans: TransParts) -> list[NodeResult]:
     n = ss.n_nodes
     node_tau, miller = tc.node_sums([], a_rows, b_rows, table, n, excess)
     touched = np.union1d(a_rows[a_rows >= 0], b_rows[b_rows >= 0]).astype(np.int64)
+    for rows, part in zip(trans.rows, trans.node_parts):
+        ok = (rows >= 0) & (rows < n)
+        np.add.at(node_tau, rows[ok], part[ok])
+        touched = np.union1d(touched, rows[ok]).astype(np.int64)
     names = ss.network.nodes
     taus = node_tau[touched]
     mts = miller[touched]

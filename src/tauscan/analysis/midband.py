@@ -123,6 +123,12 @@ class MidBandNetwork:
         return self.base.gmin
 
     @property
+    def transcaps(self):
+        """The devices' non-reciprocal parts: kept whole (projected into C with the rest;
+        their nodes are looked up in the merged numbering)."""
+        return self.base.transcaps
+
+    @property
     def n_nodes(self) -> int:
         return self.network.n_nodes - 1
 

@@ -16,12 +16,13 @@ reach has T = 0 (judged relative to the largest): it is off the signal path.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from tauscan.analysis.probe import Probe
 from tauscan.analysis.systems import Factors
+from tauscan.analysis.transcap import TransParts, transfer_parts
 
 #: A difference below this fraction of the largest counts as zero: off the signal path
 #: (exact cancellations, such as a balanced pair's tail, leave round-off of this order).
@@ -43,6 +44,8 @@ class TransferTable:
     sum_tau: float
     #: node voltages per unit drive at DC (node rows): the nodes that carry signal
     v: np.ndarray
+    #: per non-reciprocal device part (:mod:`tauscan.analysis.transcap`), signed
+    trans_tau: np.ndarray = field(default_factory=lambda: np.zeros(0))
 
 
 def _at(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
@@ -50,8 +53,11 @@ def _at(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
 
 
 def transfer_table(factors: Factors, n_nodes: int, a_rows: np.ndarray, b_rows: np.ndarray,
-                   farads: np.ndarray, input_is_a: np.ndarray, b: np.ndarray, probe: Probe) -> TransferTable | None:
-    """Per capacitor (ends ``a_rows``, ``b_rows``: MNA rows, -1 only for ground) and per node.
+                   farads: np.ndarray, input_is_a: np.ndarray, b: np.ndarray, probe: Probe,
+                   trans: TransParts | None = None) -> TransferTable | None:
+    """Per capacitor (ends ``a_rows``, ``b_rows``: MNA rows, -1 only for ground) and per node;
+    ``trans``: the devices' non-reciprocal parts (:mod:`tauscan.analysis.transcap`), whose
+    transfer time constants are :attr:`TransferTable.trans_tau` and whose parts enter the nodes'.
 
     Returns None when H0 = 0 (no low-frequency transfer on this network: nothing to divide by).
     """
@@ -86,6 +92,16 @@ def transfer_table(factors: Factors, n_nodes: int, a_rows: np.ndarray, b_rows: n
         ok = (rows >= 0) & (rows < n_nodes) & on
         np.add.at(node_tau, rows[ok], part[ok])
         np.add.at(node_miller, rows[ok], mil[ok])
+    trans_tau = np.zeros(0)
+    if trans is not None and len(trans):
+        trans_tau, trans_node = transfer_parts(trans, v, w, h0)
+        scale = max(t_scale, float(np.abs(trans_tau).max(initial=0.0)))
+        trans_on = np.abs(trans_tau) > OFF_PATH * scale
+        trans_tau = np.where(trans_on, trans_tau, 0.0)
+        for rows, part, keep in zip(trans.raw_rows, trans_node, trans_on.tolist()):
+            ok = (rows >= 0) & (rows < n_nodes)
+            if keep:
+                np.add.at(node_tau, rows[ok], part[ok])
     n_scale = np.abs(node_tau).max(initial=0.0)
     # a node whose own voltage does not move still takes charge through a capacitor whose
     # other end does (C (v_n - v_m) with v_n = 0): it is on the path when its T_n is not nil
@@ -93,4 +109,4 @@ def transfer_table(factors: Factors, n_nodes: int, a_rows: np.ndarray, b_rows: n
     node_tau = np.where(node_on, node_tau, 0.0)
     node_miller = np.where(node_on, node_miller, 0.0)
     total = complex(w @ (factors.c @ v)) / h0
-    return TransferTable(h0.real, tau, gain, on, node_tau, node_miller, node_on, total.real, v[:n_nodes])
+    return TransferTable(h0.real, tau, gain, on, node_tau, node_miller, node_on, total.real, v[:n_nodes], trans_tau)

@@ -5,7 +5,41 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from tauscan.devices import registry
+
+
+@dataclass
+class CapacitanceMatrix:
+    """One device's capacitances over its terminals: ``matrix[i, j] = dQ_i / dV_j`` (F).
+
+    Charge conservation makes every row and column sum to zero; a charge-based model's
+    matrix need not be symmetric (its transcapacitances).  ``nodes[i]`` is terminal i's
+    node; ``pair_names[(i, j)]`` (i < j) names the two-terminal part that the symmetric
+    part between terminals i and j is reported as (``cgd``); a pair without a name is
+    reported as ``c`` + both terminal names.
+    """
+
+    terminals: tuple[str, ...]
+    nodes: tuple[str, ...]
+    matrix: np.ndarray
+    pair_names: dict[tuple[int, int], str] = field(default_factory=dict)
+
+    @classmethod
+    def from_pairs(cls, terminals: tuple[str, ...], nodes: tuple[str, ...],
+                   pairs: list[tuple[str, int, int, float]]) -> "CapacitanceMatrix":
+        """The matrix of two-terminal capacitances ``(part, i, j, farads)`` between
+        terminals i and j: each adds ``C (e_i - e_j)(e_i - e_j)^T`` (symmetric)."""
+        m = np.zeros((len(terminals), len(terminals)))
+        names: dict[tuple[int, int], str] = {}
+        for part, i, j, farads in pairs:
+            m[i, i] += farads
+            m[j, j] += farads
+            m[i, j] -= farads
+            m[j, i] -= farads
+            names[(min(i, j), max(i, j))] = part
+        return cls(terminals, nodes, m, names)
 
 
 @dataclass
@@ -14,12 +48,12 @@ class SmallSignal:
 
     ``conductances``: (part, a, b, g); ``vccs``: (part, p, n, cp, cn, gm), a current
     ``gm*(v[cp]-v[cn])`` leaving node p into the device and entering n;
-    ``capacitors``: (part, a, b, C).
+    ``capacitance``: the terminal capacitance matrix (None: the device has none).
     """
 
     conductances: list[tuple[str, str, str, float]] = field(default_factory=list)
     vccs: list[tuple[str, str, str, str, str, float]] = field(default_factory=list)
-    capacitors: list[tuple[str, str, str, float]] = field(default_factory=list)
+    capacitance: CapacitanceMatrix | None = None
 
 
 @dataclass
@@ -48,6 +82,9 @@ class DeviceOP:
     overridden: set[str] = field(default_factory=set)
     #: the registered model's family name (:mod:`tauscan.devices.registry`)
     family: str = ""
+    #: a charge-based model's terminal capacitance matrix, ``(terminal keys of nodes, C)``
+    #: with ``C[i, j] = dQ_i / dV_j``; None: the capacitances are the two-terminal ``caps``
+    cmatrix: tuple[tuple[str, ...], np.ndarray] | None = None
 
     def small_signal(self) -> SmallSignal:
         """Linear primitives of this device, placed by its model."""

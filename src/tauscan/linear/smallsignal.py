@@ -9,12 +9,13 @@ from every node to ground.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.sparse as sp
 
 from tauscan.circuit import GROUND, Circuit, Element
+from tauscan.devices.stamps import split as split_capacitance
 from tauscan.network import GMIN, Network, Triplets
 from tauscan.op.result import OperatingPoint
 
@@ -33,6 +34,20 @@ class CapacitorRecord:
     comment: str = ""
 
 
+@dataclass(slots=True)
+class TransCapRecord:
+    """The non-reciprocal part of one device's terminal capacitance matrix,
+    A = (C - C^T)/2 over the device's terminal nodes: reported as ``device:ctrans``, its
+    time constant trace(Z_T A) (Z_T: the block of G^-1 at those nodes)."""
+
+    name: str
+    nodes: tuple[str, ...]
+    matrix: np.ndarray
+    file: str
+    line: int
+    device: str
+
+
 @dataclass
 class SmallSignalNetwork:
     circuit: Circuit
@@ -42,6 +57,8 @@ class SmallSignalNetwork:
     capacitors: list[CapacitorRecord]
     ac_ground: set[str]
     gmin: float
+    #: the devices' non-reciprocal capacitance parts (stamped in ``c`` besides the capacitors)
+    transcaps: list[TransCapRecord] = field(default_factory=list)
 
     @property
     def n_nodes(self) -> int:
@@ -100,14 +117,18 @@ def ac_grounds(circuit: Circuit) -> set[str]:
     return {GROUND} | {node for node, _, _ in _source_tree(circuit)}
 
 
-def _device_stamps(op: OperatingPoint, g: Triplets) -> list[CapacitorRecord]:
-    """Stamp every device's conductances and transconductances into ``g`` (gathered in
-    plain lists and added as one block: per-device numpy calls would dominate large
-    circuits) and return its capacitors."""
+def _device_stamps(op: OperatingPoint, g: Triplets, c: Triplets) -> tuple[list[CapacitorRecord], list[TransCapRecord]]:
+    """Stamp every device's conductances and transconductances into ``g`` and its terminal
+    capacitance matrix into ``c`` (gathered in plain lists and added as one block: per-device
+    numpy calls would dominate large circuits).  Returns the report's parts of the matrices
+    (:func:`tauscan.devices.stamps.split`): the two-terminal capacitors of their symmetric
+    parts, stamped as such, and the non-reciprocal remainders, stamped entry by entry."""
     idx = op.network.index
     caps: list[CapacitorRecord] = []
+    trans: list[TransCapRecord] = []
     ga, gb, gv = [], [], []
     tp, tn, tcp, tcn, tv = [], [], [], [], []
+    ar, ac, av = [], [], []
     for dev in op.devices:
         ss = dev.small_signal()
         for _part, a, b, value in ss.conductances:
@@ -122,13 +143,30 @@ def _device_stamps(op: OperatingPoint, g: Triplets) -> list[CapacitorRecord]:
                 tcp.append(idx[cp])
                 tcn.append(idx[cn])
                 tv.append(value)
-        for part, a, b, value in ss.capacitors:
-            caps.append(CapacitorRecord(f"{dev.name}:{part}", a, b, value, dev.file, dev.line, dev.name))
+        cm = ss.capacitance
+        if cm is None:
+            continue
+        pairs, remainder = split_capacitance(cm)
+        nodes = cm.nodes
+        for part, i, j, value in pairs:
+            caps.append(CapacitorRecord(f"{dev.name}:{part}", nodes[i], nodes[j], value, dev.file, dev.line, dev.name))
+        if remainder is not None:
+            rows = [idx[x] for x in nodes]
+            for i, j in zip(*np.nonzero(remainder)):
+                ar.append(rows[i])
+                ac.append(rows[j])
+                av.append(float(remainder[i, j]))
+            trans.append(TransCapRecord(f"{dev.name}:ctrans", nodes, remainder, dev.file, dev.line, dev.name))
     if gv:
         g.conductance(np.array(ga), np.array(gb), np.array(gv))
     if tv:
         g.transconductance(np.array(tp), np.array(tn), np.array(tcp), np.array(tcn), np.array(tv))
-    return caps
+    if caps:
+        c.conductance(np.array([idx[cap.a] for cap in caps]), np.array([idx[cap.b] for cap in caps]),
+                      np.array([cap.farads for cap in caps]))
+    if av:
+        c.add(np.array(ar), np.array(ac), np.array(av))
+    return caps, trans
 
 
 def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
@@ -137,12 +175,8 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
     circuit = op.circuit
     g = net.linear_g()
     c = net.linear_c()
-    device_caps = _device_stamps(op, g)
+    device_caps, trans = _device_stamps(op, g, c)
     g.extend(net.gmin_triplets(gmin))
-    idx = net.index
-    if device_caps:
-        c.conductance(np.array([idx[cap.a] for cap in device_caps]), np.array([idx[cap.b] for cap in device_caps]),
-                      np.array([cap.farads for cap in device_caps]))
     table = circuit.passives
     names, a, b, farads, files, lines = table.names, table.a, table.b, table.values, table.files, table.lines
     explicit = [CapacitorRecord(names[k], a[k], b[k], farads[k], files[k], lines[k]) for k in net.passive_c.tolist()]
@@ -153,6 +187,7 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
         g=g.matrix(net.size),
         c=c.matrix(net.size),
         capacitors=explicit + device_caps,
+        transcaps=trans,
         ac_ground=ac_grounds(circuit),
         gmin=gmin,
     )

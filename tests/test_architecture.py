@@ -84,3 +84,31 @@ def test_one_module_calls_superlu():
 
 
 _imports_cache = _imports()
+
+
+#: the maths modules, whose public functions document parameters, shapes and units
+#: (numpydoc sections, as scipy.signal's do)
+MATHS = ("analysis/timeconstants.py", "analysis/transfer.py", "analysis/transcap.py", "analysis/poles.py",
+         "analysis/zentries.py", "analysis/response.py", "devices/physics.py", "devices/stamps.py",
+         "factorization.py")
+
+
+def test_maths_functions_document_parameters_and_returns():
+    missing = []
+    for name in MATHS:
+        tree = ast.parse((SRC / name).read_text(encoding="utf-8"))
+        for node in tree.body:
+            if isinstance(node, ast.FunctionDef) and not node.name.startswith("_"):
+                doc = ast.get_docstring(node) or ""
+                args = [a.arg for a in node.args.args]
+                if args and "Parameters\n----------" not in doc:
+                    missing.append(f"{name}:{node.lineno} {node.name}: no Parameters section")
+                if node.returns is not None and ast.unparse(node.returns) != "None" and "Returns\n-------" not in doc:
+                    missing.append(f"{name}:{node.lineno} {node.name}: no Returns section")
+    assert not missing, "\n".join(missing)
+
+
+def test_docstrings_cite_published_sources_not_a_note_outside_the_repository():
+    cited = [f"{path.relative_to(SRC)}:{k}" for path in SRC.rglob("*.py")
+             for k, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1) if "METHOD" in line]
+    assert not cited, cited

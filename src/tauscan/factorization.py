@@ -30,8 +30,18 @@ DENSE_MIN = 16
 
 
 def fill_reducing_order(matrix: sp.spmatrix) -> np.ndarray:
-    """``q`` such that ``matrix[q][:, q]`` factors with little fill: minimum degree on the
-    pattern of A + A^T without its dense rows, which come last."""
+    """A symmetric permutation under which a circuit matrix factors with little fill: minimum
+    degree on the pattern of A + A^T without its dense rows, which come last.
+
+    Parameters
+    ----------
+    matrix : sparse matrix, shape (n, n)
+
+    Returns
+    -------
+    ndarray of int, shape (n,)
+        ``q`` such that ``matrix[q][:, q]`` is the matrix to factor.
+    """
     n = matrix.shape[0]
     a = sp.csr_matrix(matrix, copy=True)
     a.data = np.ones(len(a.data))
@@ -91,8 +101,22 @@ class PermutedLU:
 
 def factor(matrix: sp.spmatrix, order: np.ndarray | None = None,
            pivot_threshold: float = PIVOT_THRESHOLD) -> PermutedLU:
-    """Sparse LU of a circuit matrix in a fill-reducing order (``order``, or one computed by
-    :func:`fill_reducing_order`), solving with the matrix itself.
+    """Sparse LU of a circuit matrix in a fill-reducing order, solving with the matrix itself.
+
+    Parameters
+    ----------
+    matrix : sparse matrix, shape (n, n)
+        G, or G + sC (real or complex).
+    order : ndarray of int, optional
+        A permutation from :func:`fill_reducing_order` (computed when not given; pass it to
+        reuse one order for many matrices of one pattern).
+    pivot_threshold : float
+        SuperLU's diagonal pivot threshold.
+
+    Returns
+    -------
+    PermutedLU
+        ``solve(b[, trans])`` solves with ``matrix`` (or its transpose) in the original order.
 
     Raises ``RuntimeError`` when the matrix is singular.
     """

@@ -218,7 +218,22 @@ def _tidy(poles: np.ndarray) -> np.ndarray:
 
 
 def eigenvectors(factors: Factors, p: complex, steps: int = 3) -> tuple[np.ndarray, np.ndarray]:
-    """Right and left null vectors of (G + pC) by inverse iteration with a slightly shifted pole."""
+    """Right and left null vectors of (G + pC) by inverse iteration with a slightly shifted pole.
+
+    Parameters
+    ----------
+    factors : Factors
+        G and C of the network (n x n, ground dropped).
+    p : complex
+        The pole (rad/s).
+    steps : int
+        Inverse-iteration steps.
+
+    Returns
+    -------
+    x, y : ndarray of complex, shape (n,)
+        (G + pC) x ~ 0 and y^T (G + pC) ~ 0, each scaled to unit norm.
+    """
     n = factors.g.shape[0]
     shift = p * (1.0 + 1e-8) + 1e-30
     solver = factors.complex
@@ -240,7 +255,25 @@ def _solve_transposed(solver: ComplexSolver, lu, b: np.ndarray) -> np.ndarray:
 
 
 def pole_shares(c: sp.csc_matrix, x: np.ndarray, y: np.ndarray, a_rows: np.ndarray, b_rows: np.ndarray, farads: np.ndarray) -> np.ndarray:
-    """Each capacitor's share -S_k of the dominant pole (real part); they add up to 1."""
+    """Each capacitor's share -S_k of the dominant pole (real part); with the non-reciprocal
+    parts (:func:`tauscan.analysis.transcap.pole_shares`) they add up to 1.
+
+    Parameters
+    ----------
+    c : sparse matrix, shape (n, n)
+        The capacitance matrix (F).
+    x, y : ndarray, shape (n,)
+        Right and left eigenvectors of the pole.
+    a_rows, b_rows : ndarray of int, shape (m,)
+        MNA rows of each capacitor's ends, -1 for ground.
+    farads : ndarray, shape (m,)
+        Capacitances (F).
+
+    Returns
+    -------
+    ndarray, shape (m,)
+        Re(C_k (y_a - y_b)(x_a - x_b) / y^T C x), dimensionless; NaN when y^T C x = 0.
+    """
     denominator = y @ (c @ x)
     if denominator == 0:
         return np.full(len(farads), np.nan)
@@ -252,7 +285,18 @@ def pole_shares(c: sp.csc_matrix, x: np.ndarray, y: np.ndarray, a_rows: np.ndarr
 
 
 def quality_factor(p: complex) -> float | None:
-    """Q of a complex pole pair, |p| / (2 |Re p|); None for a real pole."""
+    """Q of a complex pole pair, |p| / (2 |Re p|).
+
+    Parameters
+    ----------
+    p : complex
+        The pole (rad/s).
+
+    Returns
+    -------
+    float or None
+        None for a real pole (or one on the imaginary axis).
+    """
     if p.imag == 0 or p.real == 0:
         return None
     return abs(p) / (2.0 * abs(p.real))

@@ -87,10 +87,25 @@ def f3db(resp: Response, poles: Poles, estimate_hz: float | None = None) -> tupl
     """Where |H| falls to 1/sqrt(2) of |H(0)| (or of the mid-band peak when H(0) = 0).
 
     Small circuits: a sweep over the whole pole band, then regula falsi on the first
-    crossing.  Large ones (each point a sparse complex factorization): steps
-    upward from below the dominant pole or the estimate (:data:`F3DB_STEP`), then Newton's
-    method with the slope each point gives (:func:`_refine_sloped`).
-    Returns the frequency (Hz, or None) and a note on how it was found.
+    crossing.  Large ones (each point a sparse complex factorization): steps upward from
+    below the dominant pole or the estimate (:data:`F3DB_STEP`), then Newton's method with
+    the slope each point gives (:func:`_refine_sloped`).
+
+    Parameters
+    ----------
+    resp : Response
+        The transfer H(f) of one drive and probe.
+    poles : Poles
+        The network's poles (rad/s), which bound the sweep.
+    estimate_hz : float, optional
+        The first-order estimate (Hz), a starting point for large circuits.
+
+    Returns
+    -------
+    f3db : float or None
+        Hz; None when |H| does not fall that far below the top of the sweep.
+    note : str
+        How it was found.
     """
     h0 = resp.dc()
     if not math.isfinite(h0):
@@ -280,7 +295,25 @@ def _f3db_stepping(resp: Response, h0: float, poles: Poles, estimate_hz: float |
 
 def response_curve(factors: Factors, b: np.ndarray, row: "int | Probe", f_lo: float, f_hi: float,
                    points: int = 200) -> tuple[np.ndarray, np.ndarray]:
-    """Frequencies (Hz) and |H| from a log sweep (for plots)."""
+    """|H| over a logarithmic sweep (for plots).
+
+    Parameters
+    ----------
+    factors : Factors
+    b : ndarray, shape (n,)
+        The drive.
+    row : int or Probe
+        The output row, or the probe.
+    f_lo, f_hi : float
+        Sweep limits (Hz).
+    points : int
+        Number of frequencies.
+
+    Returns
+    -------
+    freqs, mags : ndarray, shape (points,)
+        Hz, and |H| in the probe's unit per unit of drive.
+    """
     resp = Response(factors, b, row)
     freqs = np.geomspace(f_lo, f_hi, points)
     return freqs, np.array([abs(resp(f)) for f in freqs])

@@ -56,8 +56,8 @@ class CapacitorResult(_Compact):
     line: int
     device: str | None = None
     comment: str = ""
-    #: transfer time constant T_k (signed) and its share of the first moment (METHOD of
-    #: Hajimiri 2010); None without a transfer
+    #: transfer time constant T_k (signed) and its share of the first moment (Hajimiri,
+    #: IEEE Trans. Circuits Syst. I 57(6), 2010); None without a transfer
     transfer_tau_s: float | None = None
     transfer_share: float | None = None
     #: the signal's own gain across it at low frequency, v(node_out) / v(node_in)

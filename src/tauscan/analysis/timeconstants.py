@@ -55,7 +55,24 @@ NO_GAIN = 1e-9
 def capacitor_table(farads: np.ndarray, a_ground: np.ndarray, b_ground: np.ndarray,
                     zaa: np.ndarray, zbb: np.ndarray, zab: np.ndarray, zba: np.ndarray) -> CapacitorTable:
     """Resistance seen, time constant, gains both ways, input side, class and Miller factors
-    (Thornton et al. 1965; Miller 1920), for every capacitor at once."""
+    of every capacitor at once (Thornton et al. 1965; Miller 1920).
+
+    Parameters
+    ----------
+    farads : ndarray, shape (m,)
+        Capacitances (F).
+    a_ground, b_ground : ndarray of bool, shape (m,)
+        Whether each end is at (AC) ground; the Z entries of a grounded end are ignored.
+    zaa, zbb, zab, zba : ndarray, shape (m,)
+        Entries of Z = G^-1 at the two ends (ohm): Z[a, a], Z[b, b], Z[a, b], Z[b, a].
+
+    Returns
+    -------
+    CapacitorTable
+        Arrays of shape (m,): ``ohms`` = Zaa + Zbb - Zab - Zba (ohm), ``tau`` (s), the gains
+        ``k_ab`` = Zba / Zaa and ``k_ba`` = Zab / Zbb (NaN where undefined), the input side,
+        the Miller factors 1 - K, the exact parts at each end (s) and the class.
+    """
     zaa = np.where(a_ground, 0.0, zaa)
     zbb = np.where(b_ground, 0.0, zbb)
     zab = np.where(a_ground | b_ground, 0.0, zab)
@@ -86,14 +103,36 @@ def capacitor_table(farads: np.ndarray, a_ground: np.ndarray, b_ground: np.ndarr
 
 
 def miller_excess(t: CapacitorTable) -> np.ndarray:
-    """The part the gain adds at the input node, C Znn (-K), for miller capacitors (else 0)."""
+    """The part the gain adds at the input node, C Znn (-K), for miller capacitors (else 0).
+
+    Parameters
+    ----------
+    t : CapacitorTable
+        From :func:`capacitor_table`, m capacitors.
+
+    Returns
+    -------
+    ndarray, shape (m,)
+        Seconds; zero for every capacitor not classed ``miller``.
+    """
     z_in = np.where(t.input_is_a, t.zaa, t.zbb)
     return np.where(t.klass == "miller", t.farads * z_in * (-np.nan_to_num(t.gain)), 0.0)
 
 
 def cascoded_tau(t: CapacitorTable) -> np.ndarray:
     """Time constant if the gain across a miller capacitor were cut to -1 (as a cascode does):
-    the input part becomes C Zin (1 - (-1)), the output part stays.  NaN where it would not help."""
+    the input part becomes C Zin (1 - (-1)), the output part stays.
+
+    Parameters
+    ----------
+    t : CapacitorTable
+        From :func:`capacitor_table`, m capacitors.
+
+    Returns
+    -------
+    ndarray, shape (m,)
+        Seconds; NaN where it would not help (not miller, or a gain above -1).
+    """
     z_in = np.where(t.input_is_a, t.zaa, t.zbb)
     part_out = np.where(t.input_is_a, t.part_b, t.part_a)
     helps = (t.klass == "miller") & (np.nan_to_num(t.gain) < -1.0)
@@ -102,7 +141,27 @@ def cascoded_tau(t: CapacitorTable) -> np.ndarray:
 
 def node_sums(names: list[str], a_index: np.ndarray, b_index: np.ndarray, t: CapacitorTable, n_nodes: int,
               excess: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per node: its time constant (the parts at it) and its Miller part (the exact split of the time constants above)."""
+    """Per node: its time constant (the parts at it) and its Miller part, from the exact split
+    of every capacitor's time constant between its two ends.
+
+    Parameters
+    ----------
+    names : list of str
+        Unused (kept for callers that pass node names); may be empty.
+    a_index, b_index : ndarray of int, shape (m,)
+        Node row of each capacitor's ends, -1 for (AC) ground.
+    t : CapacitorTable
+        From :func:`capacitor_table`.
+    n_nodes : int
+        Number of node rows.
+    excess : ndarray, shape (m,)
+        :func:`miller_excess` (s).
+
+    Returns
+    -------
+    tau, miller : ndarray, shape (n_nodes,)
+        Seconds per node row.
+    """
     tau = np.zeros(n_nodes)
     np.add.at(tau, a_index[a_index >= 0], t.part_a[a_index >= 0])
     np.add.at(tau, b_index[b_index >= 0], t.part_b[b_index >= 0])

@@ -47,7 +47,23 @@ class TransParts:
 
 
 def trans_parts(network, factors, method: str) -> TransParts:
-    """The open-circuit figures of every non-reciprocal part of ``network``."""
+    """The open-circuit figures of every non-reciprocal part of ``network``.
+
+    Parameters
+    ----------
+    network : SmallSignalNetwork or MidBandNetwork
+        Its ``transcaps`` records give the parts; its numbering places their nodes.
+    factors : Factors
+        G's factors (used when the Z entries are taken by columns).
+    method : str
+        ``"auto"``, ``"columns"`` or ``"selected"`` (:func:`tauscan.analysis.zentries.z_entries`).
+
+    Returns
+    -------
+    TransParts
+        Per record: tau = trace(A Z_T) (s), its parts at the terminals (s), the largest
+        |A_ij| (F) and the terminals' rows.
+    """
     records = list(getattr(network, "transcaps", ()) or ())
     if not records:
         return TransParts([], [], [], np.zeros(0), [], np.zeros(0))
@@ -85,7 +101,21 @@ def _at(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
 
 
 def pole_shares(parts: TransParts, x: np.ndarray, y: np.ndarray, denominator: complex) -> np.ndarray:
-    """Each entry's share of the dominant pole, y^T A x / y^T C x (real part)."""
+    """Each entry's share of the dominant pole, Re(y^T A x / y^T C x).
+
+    Parameters
+    ----------
+    parts : TransParts
+    x, y : ndarray, shape (n,)
+        Right and left eigenvectors of the dominant pole (MNA rows, ground dropped).
+    denominator : complex
+        y^T C x for the whole C.
+
+    Returns
+    -------
+    ndarray, shape (len(parts),)
+        Dimensionless; NaN when the denominator is zero.
+    """
     if not len(parts) or denominator == 0:
         return np.full(len(parts), np.nan)
     return np.array([np.real(_at(y, r) @ (np.asarray(rec.matrix) @ _at(x, r)) / denominator)
@@ -93,7 +123,25 @@ def pole_shares(parts: TransParts, x: np.ndarray, y: np.ndarray, denominator: co
 
 
 def transfer_parts(parts: TransParts, v: np.ndarray, w: np.ndarray, h0: complex) -> tuple[np.ndarray, list[np.ndarray]]:
-    """Each entry's transfer time constant w^T A v / H0 and its parts w_i (A v)_i / H0."""
+    """Each entry's transfer time constant w^T A v / H0 and its parts w_i (A v)_i / H0.
+
+    Parameters
+    ----------
+    parts : TransParts
+    v : ndarray, shape (n,)
+        Node voltages per unit drive at DC, G^-1 b.
+    w : ndarray, shape (n,)
+        The adjoint, G^-T e (e: the probe vector).
+    h0 : complex
+        The low-frequency gain e^T v.
+
+    Returns
+    -------
+    tau : ndarray, shape (len(parts),)
+        Seconds, signed.
+    node_parts : list of ndarray
+        Per entry, seconds at each of its terminals (they add up to its tau).
+    """
     taus, node_parts = [], []
     for rec, r in zip(parts.records, parts.raw_rows):
         part = np.real(_at(w, r) * (np.asarray(rec.matrix) @ _at(v, r)) / h0)

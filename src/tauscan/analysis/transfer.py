@@ -55,11 +55,33 @@ def _at(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
 def transfer_table(factors: Factors, n_nodes: int, a_rows: np.ndarray, b_rows: np.ndarray,
                    farads: np.ndarray, input_is_a: np.ndarray, b: np.ndarray, probe: Probe,
                    trans: TransParts | None = None) -> TransferTable | None:
-    """Per capacitor (ends ``a_rows``, ``b_rows``: MNA rows, -1 only for ground) and per node;
-    ``trans``: the devices' non-reciprocal parts (:mod:`tauscan.analysis.transcap`), whose
-    transfer time constants are :attr:`TransferTable.trans_tau` and whose parts enter the nodes'.
+    """Transfer time constants of every capacitor and node for one drive and probe (Hajimiri 2010).
 
-    Returns None when H0 = 0 (no low-frequency transfer on this network: nothing to divide by).
+    Parameters
+    ----------
+    factors : Factors
+        G (and C) of the network, factored once.
+    n_nodes : int
+        Number of node rows (the first rows of G).
+    a_rows, b_rows : ndarray of int, shape (m,)
+        MNA rows of each capacitor's ends, -1 only for ground (a driven node keeps its row).
+    farads : ndarray, shape (m,)
+        Capacitances (F).
+    input_is_a : ndarray of bool, shape (m,)
+        Which end is the input side (from the open-circuit table): orients the signal gain.
+    b : ndarray, shape (n,)
+        The drive (MNA right-hand side per unit of the source's AC value).
+    probe : Probe
+        The output node (or pair).
+    trans : TransParts, optional
+        The devices' non-reciprocal parts (:mod:`tauscan.analysis.transcap`): their transfer
+        time constants are ``trans_tau`` and their parts enter the nodes'.
+
+    Returns
+    -------
+    TransferTable or None
+        Signed time constants (s) per capacitor and node row; None when H0 = 0 (no
+        low-frequency transfer on this network: nothing to divide by).
     """
     lu = factors.lu
     b = np.asarray(b)

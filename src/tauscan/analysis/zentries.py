@@ -81,7 +81,20 @@ def by_columns(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray, lu: Permute
 
 
 def selected(g: sp.csc_matrix, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
-    """Z[rows[k], cols[k]] by selected inversion of a nodal matrix (see module doc)."""
+    """Z[rows[k], cols[k]] by selected inversion of a nodal matrix (see the module's notes).
+
+    Parameters
+    ----------
+    g : sparse matrix, shape (n, n)
+        A nodal conductance matrix (S), no branch rows.
+    rows, cols : ndarray of int, shape (k,)
+        Nodal rows and columns wanted, -1 for ground (gives 0).
+
+    Returns
+    -------
+    ndarray, shape (k,)
+        Ohms.  Raises ``_NotClosed`` when an entry falls outside the factor's pattern.
+    """
     n = g.shape[0]
     out = np.zeros(len(rows))
     valid = (rows >= 0) & (cols >= 0)
@@ -325,10 +338,20 @@ def _symbolic_closure(seed: sp.csc_matrix, n: int) -> list[list[int]]:
 
 
 def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
-    """The nodal G (no branch rows) and a map MNA node row -> nodal row (-1: AC ground).
+    """The nodal G (no branch rows) and a map from MNA node rows to its rows.
 
-    Voltage sources and inductors are shorts at DC: their nodes are merged (or
-    grounded).  Returns None when E, F or H sources need branch rows.
+    Voltage sources and inductors are shorts at DC: their nodes are merged (or grounded).
+
+    Parameters
+    ----------
+    ss : SmallSignalNetwork or MidBandNetwork
+
+    Returns
+    -------
+    (g, mapped) or None
+        ``g``: sparse, shape (p, p), siemens; ``mapped``: ndarray of int, shape (n_nodes,),
+        the nodal row of each MNA node row (-1: AC ground).  None when E, F or H sources
+        need branch rows.
     """
     shorts = ss.dc_shorts()
     if shorts is None:
@@ -365,11 +388,26 @@ def nodal_reduction(ss) -> tuple[sp.csc_matrix, np.ndarray] | None:
 
 
 def z_entries(ss, rows: np.ndarray, cols: np.ndarray, method: str, lu: Callable[[], PermutedLU]) -> tuple[np.ndarray, str]:
-    """Z[rows[k], cols[k]] for MNA node rows (-1 = ground), and the method used.
+    """Z[rows[k], cols[k]] of Z = G^-1 for MNA node rows, and the method used.
 
-    ``method``: "auto", "columns" or "selected"; ``lu`` gives G's factors when the column
-    method needs them (G is factored once per analysis, and not at all for the selected
-    inversion of a nodal matrix when nothing else needs it).
+    Parameters
+    ----------
+    ss : SmallSignalNetwork or MidBandNetwork
+    rows, cols : ndarray of int, shape (k,)
+        MNA node rows (ground dropped), -1 for ground.
+    method : str
+        ``"auto"``, ``"columns"`` (solves with G's factors, one per distinct column) or
+        ``"selected"`` (selected inversion of the nodal matrix).
+    lu : callable
+        Gives G's factors when the column method needs them (G is factored once per
+        analysis, and not at all for the selected inversion when nothing else needs it).
+
+    Returns
+    -------
+    z : ndarray, shape (k,)
+        Ohms.
+    method : str
+        The method used.
     """
     rows = np.asarray(rows, dtype=np.int64)
     cols = np.asarray(cols, dtype=np.int64)

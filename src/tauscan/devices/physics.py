@@ -29,12 +29,32 @@ EXP_LIMIT = 80.0
 
 
 def thermal_voltage(temp_c: float) -> float:
-    """kT/q in volts at ``temp_c`` degrees Celsius."""
+    """kT/q.
+
+    Parameters
+    ----------
+    temp_c : float
+        Temperature (degrees Celsius).
+
+    Returns
+    -------
+    float
+        Volts.
+    """
     return K_BOLTZMANN * (temp_c + CELSIUS_TO_KELVIN) / Q_ELECTRON
 
 
 def safe_exp(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """exp(x) and its derivative, continued linearly above :data:`EXP_LIMIT`."""
+    """exp(x) and its derivative, continued linearly above :data:`EXP_LIMIT`.
+
+    Parameters
+    ----------
+    x : ndarray
+
+    Returns
+    -------
+    value, slope : ndarray, shape of ``x``
+    """
     x = np.asarray(x, dtype=float)
     clipped = np.minimum(x, EXP_LIMIT)
     e = np.exp(clipped)
@@ -43,7 +63,22 @@ def safe_exp(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def diode_current(v: np.ndarray, i_sat: np.ndarray, n_vt: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Shockley diode law ``I = IS (exp(v/(N Vt)) - 1)`` and its conductance."""
+    """Shockley diode law ``I = IS (exp(v/(N Vt)) - 1)`` and its conductance.
+
+    Parameters
+    ----------
+    v : ndarray
+        Junction voltages (V).
+    i_sat : ndarray
+        Saturation currents IS (A).
+    n_vt : ndarray
+        Emission coefficient times the thermal voltage (V).
+
+    Returns
+    -------
+    current, conductance : ndarray, shape of ``v``
+        Amperes and siemens.
+    """
     e, de = safe_exp(v / n_vt)
     return i_sat * (e - 1.0), i_sat * de / n_vt
 
@@ -51,8 +86,22 @@ def diode_current(v: np.ndarray, i_sat: np.ndarray, n_vt: np.ndarray) -> tuple[n
 def depletion_capacitance(v: np.ndarray, cj0: np.ndarray, pb: np.ndarray, m: np.ndarray, fc: np.ndarray) -> np.ndarray:
     """Junction depletion capacitance at forward voltage ``v``.
 
-    Below ``FC*PB``: ``Cj0 / (1 - v/PB)^M``.  Above it the standard linear
-    extension ``Cj0 / (1-FC)^(1+M) * (1 - FC(1+M) + M v/PB)`` (Nagel 1975).
+    Below ``FC*PB``: ``Cj0 / (1 - v/PB)^M``.  Above it the standard linear extension
+    ``Cj0 / (1-FC)^(1+M) * (1 - FC(1+M) + M v/PB)`` (Nagel 1975).
+
+    Parameters
+    ----------
+    v : ndarray
+        Forward voltages (V).
+    cj0 : ndarray
+        Zero-bias capacitances (F).
+    pb, m, fc : ndarray
+        Junction potential (V), grading coefficient and forward-bias coefficient.
+
+    Returns
+    -------
+    ndarray, shape of ``v``
+        Farads.
     """
     v = np.asarray(v, dtype=float)
     cj0 = np.asarray(cj0, dtype=float)
@@ -64,15 +113,42 @@ def depletion_capacitance(v: np.ndarray, cj0: np.ndarray, pb: np.ndarray, m: np.
 
 
 def critical_voltage(i_sat: np.ndarray, n_vt: np.ndarray) -> np.ndarray:
-    """``Vcrit = N Vt ln(N Vt / (sqrt(2) IS))``: where limiting of a junction starts."""
+    """``Vcrit = N Vt ln(N Vt / (sqrt(2) IS))``: where limiting of a junction starts (Nagel 1975).
+
+    Parameters
+    ----------
+    i_sat : ndarray
+        Saturation currents (A).
+    n_vt : ndarray
+        Emission coefficient times the thermal voltage (V).
+
+    Returns
+    -------
+    ndarray
+        Volts.
+    """
     i_sat = np.maximum(np.asarray(i_sat, dtype=float), 1e-300)
     return n_vt * np.log(n_vt / (np.sqrt(2.0) * i_sat))
 
 
 def pnjlim(vnew: np.ndarray, vold: np.ndarray, n_vt: np.ndarray, vcrit: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Limit the step of a junction voltage above ``vcrit`` to a logarithmic one.
+    """Limit the step of a junction voltage above ``vcrit`` to a logarithmic one (Nagel 1975).
 
-    Returns the limited voltage and a flag of where it was changed.
+    Parameters
+    ----------
+    vnew, vold : ndarray
+        The Newton step's new and the previous junction voltages (V).
+    n_vt : ndarray
+        Emission coefficient times the thermal voltage (V).
+    vcrit : ndarray
+        :func:`critical_voltage` (V).
+
+    Returns
+    -------
+    limited : ndarray
+        Volts.
+    changed : ndarray of bool
+        Where the step was limited.
     """
     vnew = np.asarray(vnew, dtype=float)
     big = (vnew > vcrit) & (np.abs(vnew - vold) > 2.0 * n_vt)
@@ -85,7 +161,20 @@ def pnjlim(vnew: np.ndarray, vold: np.ndarray, n_vt: np.ndarray, vcrit: np.ndarr
 
 
 def fetlim(vnew: np.ndarray, vold: np.ndarray, vto: np.ndarray) -> np.ndarray:
-    """Limit the step of a FET gate-source voltage around its threshold ``vto``."""
+    """Limit the step of a FET gate-source voltage around its threshold (Nagel 1975).
+
+    Parameters
+    ----------
+    vnew, vold : ndarray
+        New and previous gate-source voltages (V).
+    vto : ndarray
+        Thresholds (V).
+
+    Returns
+    -------
+    ndarray
+        The limited voltages (V).
+    """
     vnew = np.asarray(vnew, dtype=float).copy()
     vold = np.asarray(vold, dtype=float)
     vtsthi = np.abs(2.0 * (vold - vto)) + 2.0
@@ -119,7 +208,18 @@ def fetlim(vnew: np.ndarray, vold: np.ndarray, vto: np.ndarray) -> np.ndarray:
 
 
 def limvds(vnew: np.ndarray, vold: np.ndarray) -> np.ndarray:
-    """Limit the step of a FET drain-source voltage."""
+    """Limit the step of a FET drain-source voltage (Nagel 1975).
+
+    Parameters
+    ----------
+    vnew, vold : ndarray
+        New and previous drain-source voltages (V).
+
+    Returns
+    -------
+    ndarray
+        The limited voltages (V).
+    """
     vnew = np.asarray(vnew, dtype=float)
     high = vold >= 3.5
     up = vnew > vold
@@ -133,12 +233,40 @@ def limvds(vnew: np.ndarray, vold: np.ndarray) -> np.ndarray:
 # -- temperature ----------------------------------------------------------------
 
 def silicon_gap(temp_k: float) -> float:
-    """Band gap of silicon in eV (the Varshni form SPICE uses: 1.16 - 7.02e-4 T^2/(T+1108))."""
+    """Band gap of silicon, the Varshni form SPICE uses: 1.16 - 7.02e-4 T^2 / (T + 1108).
+
+    Parameters
+    ----------
+    temp_k : float
+        Temperature (K).
+
+    Returns
+    -------
+    float
+        Electron-volts.
+    """
     return 1.16 - 7.02e-4 * temp_k * temp_k / (temp_k + 1108.0)
 
 
 def scale_saturation_current(i_sat: np.ndarray, temp_c: float, tnom_c: float, eg: np.ndarray, xti: np.ndarray, n: np.ndarray) -> np.ndarray:
-    """``IS(T) = IS (T/Tnom)^(XTI/N) exp((T/Tnom - 1) EG / (N Vt(T)))`` (Nagel 1975)."""
+    """``IS(T) = IS (T/Tnom)^(XTI/N) exp((T/Tnom - 1) EG / (N Vt(T)))`` (Nagel 1975).
+
+    Parameters
+    ----------
+    i_sat : ndarray
+        IS at ``tnom_c`` (A).
+    temp_c, tnom_c : float
+        Temperature and the card's nominal temperature (degrees Celsius).
+    eg : ndarray
+        Band gap (eV).
+    xti, n : ndarray
+        Saturation-current temperature exponent and emission coefficient.
+
+    Returns
+    -------
+    ndarray
+        Amperes.
+    """
     if temp_c == tnom_c:
         return np.asarray(i_sat, dtype=float)
     t = temp_c + CELSIUS_TO_KELVIN
@@ -149,7 +277,20 @@ def scale_saturation_current(i_sat: np.ndarray, temp_c: float, tnom_c: float, eg
 
 
 def scale_junction_potential(pb: np.ndarray, temp_c: float, tnom_c: float) -> np.ndarray:
-    """``PB(T) = PB T/Tnom - 3 Vt ln(T/Tnom) - Eg(Tnom) T/Tnom + Eg(T)`` (Nagel 1975)."""
+    """``PB(T) = PB T/Tnom - 3 Vt ln(T/Tnom) - Eg(Tnom) T/Tnom + Eg(T)`` (Nagel 1975).
+
+    Parameters
+    ----------
+    pb : ndarray
+        Junction potential at ``tnom_c`` (V).
+    temp_c, tnom_c : float
+        Temperature and nominal temperature (degrees Celsius).
+
+    Returns
+    -------
+    ndarray
+        Volts.
+    """
     if temp_c == tnom_c:
         return np.asarray(pb, dtype=float)
     t = temp_c + CELSIUS_TO_KELVIN

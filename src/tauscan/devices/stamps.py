@@ -10,9 +10,22 @@ from tauscan.devices.base import CapacitanceMatrix, DeviceOP, SmallSignal
 
 
 def capacitors(dev: DeviceOP, out: SmallSignal, terminals: dict[str, tuple[str, str]]) -> None:
-    """The device's capacitances by part as its terminal matrix, each part between the
-    nodes of its two terminals (``terminals``: part -> (terminal, terminal)); a device
-    whose ``cmatrix`` is given (a charge-based model) is placed by that matrix instead."""
+    """Set ``out.capacitance``: the device's terminal capacitance matrix.
+
+    A device whose ``cmatrix`` is given (a charge-based model) is placed by that matrix,
+    unless a user-supplied operating point overrides one of its parts; otherwise each
+    two-terminal part of ``dev.caps`` adds C (e_i - e_j)(e_i - e_j)^T between its terminals.
+
+    Parameters
+    ----------
+    dev : DeviceOP
+        The device at its operating point (``caps`` in farads, ``nodes`` by terminal key).
+    out : SmallSignal
+        Receives the matrix (left None when every part is zero).
+    terminals : dict of str to (str, str)
+        Part name -> its two terminal keys (``"cgd": ("g", "d_phys")``); also names the pairs
+        of a given matrix for the report.
+    """
     n = dev.nodes
     if dev.cmatrix is not None and not dev.overridden.intersection(terminals):  # (values from a file win)
         order, matrix = dev.cmatrix
@@ -42,12 +55,23 @@ RECIPROCAL = 1e-12
 
 def split(cm: CapacitanceMatrix) -> tuple[list[tuple[str, int, int, float]], np.ndarray | None]:
     """The report's parts of a terminal matrix C: the symmetric part
-    S = (C + C^T)/2 = sum over pairs of c_ij (e_i - e_j)(e_i - e_j)^T with c_ij = -S_ij, as
-    ``(part, i, j, c_ij)`` for every nonzero pair (c_ij < 0 is kept: it is real), and the
-    remainder A = (C - C^T)/2 (None when C is symmetric to round-off).
+    S = (C + C^T)/2 = sum over pairs of c_ij (e_i - e_j)(e_i - e_j)^T with c_ij = -S_ij, and
+    the remainder A = (C - C^T)/2.
 
-    S and A add up to C exactly, so trace(Z_T S) + trace(Z_T A) = trace(Z_T C): the
-    device's entries add up to its share of trace(G^-1 C).
+    S and A add up to C exactly, so trace(Z_T S) + trace(Z_T A) = trace(Z_T C): the device's
+    entries add up to its share of trace(G^-1 C).
+
+    Parameters
+    ----------
+    cm : CapacitanceMatrix
+        k terminals; ``matrix`` of shape (k, k) in farads.
+
+    Returns
+    -------
+    pairs : list of (part, i, j, c_ij)
+        Every nonzero pair, named by ``cm.pair_names`` (c_ij < 0 is kept: it is real), farads.
+    remainder : ndarray, shape (k, k), or None
+        A in farads; None when C is symmetric to round-off (:data:`RECIPROCAL`).
     """
     c = cm.matrix
     sym = 0.5 * (c + c.T)
@@ -74,7 +98,15 @@ def _short(terminal: str) -> str:
 
 
 def series(dev: DeviceOP, out: SmallSignal) -> None:
-    """Series resistances between external and internal terminals, as conductances."""
+    """Series resistances between external and internal terminals, as conductances.
+
+    Parameters
+    ----------
+    dev : DeviceOP
+        ``series``: part -> ohms; ``nodes`` holds ``part_ext`` and ``part_int``.
+    out : SmallSignal
+        Receives ``(part, external node, internal node, 1/ohms)`` for every nonzero one.
+    """
     for part, ohms in dev.series.items():
         ext, internal = dev.nodes[part + "_ext"], dev.nodes[part + "_int"]
         if ohms > 0 and ext != internal:

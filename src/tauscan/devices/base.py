@@ -10,7 +10,7 @@ import numpy as np
 from tauscan.devices import registry
 
 
-@dataclass
+@dataclass(slots=True)
 class CapacitanceMatrix:
     """One device's capacitances over its terminals: ``matrix[i, j] = dQ_i / dV_j`` (F).
 
@@ -18,31 +18,44 @@ class CapacitanceMatrix:
     matrix need not be symmetric (its transcapacitances).  ``nodes[i]`` is terminal i's
     node; ``pair_names[(i, j)]`` (i < j) names the two-terminal part that the symmetric
     part between terminals i and j is reported as (``cgd``); a pair without a name is
-    reported as ``c`` + both terminal names.
+    reported as ``c`` + both terminal names.  A matrix made of two-terminal parts
+    (:meth:`from_pairs`) keeps them (``pairs``) and builds ``matrix`` only when asked: a
+    large circuit has one per device, and per-device arrays would dominate its linearization.
     """
 
     terminals: tuple[str, ...]
     nodes: tuple[str, ...]
-    matrix: np.ndarray
+    given: np.ndarray | None = None
     pair_names: dict[tuple[int, int], str] = field(default_factory=dict)
+    #: ``(part, i, j, farads)`` when the matrix is the sum of two-terminal parts
+    pairs: list[tuple[str, int, int, float]] | None = None
 
-    @classmethod
-    def from_pairs(cls, terminals: tuple[str, ...], nodes: tuple[str, ...],
-                   pairs: list[tuple[str, int, int, float]]) -> "CapacitanceMatrix":
-        """The matrix of two-terminal capacitances ``(part, i, j, farads)`` between
-        terminals i and j: each adds ``C (e_i - e_j)(e_i - e_j)^T`` (symmetric)."""
-        m = np.zeros((len(terminals), len(terminals)))
-        names: dict[tuple[int, int], str] = {}
-        for part, i, j, farads in pairs:
+    @property
+    def matrix(self) -> np.ndarray:
+        """The k x k matrix (F)."""
+        if self.given is not None:
+            return self.given
+        m = np.zeros((len(self.terminals), len(self.terminals)))
+        for _part, i, j, farads in self.pairs or ():
             m[i, i] += farads
             m[j, j] += farads
             m[i, j] -= farads
             m[j, i] -= farads
-            names[(min(i, j), max(i, j))] = part
-        return cls(terminals, nodes, m, names)
+        return m
+
+    @classmethod
+    def from_pairs(cls, terminals: tuple[str, ...], nodes: tuple[str, ...],
+                   pairs: list[tuple[str, int, int, float]],
+                   names: dict[tuple[int, int], str] | None = None) -> "CapacitanceMatrix":
+        """The matrix of two-terminal capacitances ``(part, i, j, farads)`` between
+        terminals i and j: each adds ``C (e_i - e_j)(e_i - e_j)^T`` (symmetric).
+        ``names``: the pair names when the caller has them (shared, read-only)."""
+        if names is None:
+            names = {(min(i, j), max(i, j)): part for part, i, j, _ in pairs}
+        return cls(terminals, nodes, None, names, pairs)
 
 
-@dataclass
+@dataclass(slots=True)
 class SmallSignal:
     """Linear primitives of one device at its operating point (node names, SI values).
 

@@ -36,17 +36,46 @@ def capacitors(dev: DeviceOP, out: SmallSignal, terminals: dict[str, tuple[str, 
                 names[(min(i, j), max(i, j))] = part
         out.capacitance = CapacitanceMatrix(tuple(order), tuple(n[t] for t in order), np.asarray(matrix, float), names)
         return
-    order: list[str] = []
+    order, placed, names, needed = _layout(terminals)
+    if n.keys() >= needed:  # the usual case: every terminal has its node
+        caps = dev.caps
+        pairs = [(part, i, j, caps[part]) for part, i, j in placed if caps.get(part)]
+        if pairs:
+            out.capacitance = CapacitanceMatrix(order, tuple(map(n.__getitem__, order)), None, names, pairs)
+        return
+    used: list[str] = []
     pairs = []
     for part, (ta, tb) in terminals.items():
         value = dev.caps.get(part)
         if value and ta in n and tb in n:
             for t in (ta, tb):
-                if t not in order:
-                    order.append(t)
-            pairs.append((part, order.index(ta), order.index(tb), value))
+                if t not in used:
+                    used.append(t)
+            pairs.append((part, used.index(ta), used.index(tb), value))
     if pairs:
-        out.capacitance = CapacitanceMatrix.from_pairs(tuple(order), tuple(n[t] for t in order), pairs)
+        out.capacitance = CapacitanceMatrix.from_pairs(tuple(used), tuple(n[t] for t in used), pairs)
+
+
+_LAYOUTS: dict[int, tuple[dict, tuple]] = {}
+
+
+def _layout(terminals: dict[str, tuple[str, str]]) -> tuple:
+    """``(terminal order, (part, i, j) per part, pair names, the terminals)`` of a model's part map, made
+    once per map (a model's map is a module constant; the cache holds it, so its id stays
+    its own)."""
+    found = _LAYOUTS.get(id(terminals))
+    if found is not None and found[0] is terminals:
+        return found[1]
+    order: list[str] = []
+    for ta, tb in terminals.values():
+        for t in (ta, tb):
+            if t not in order:
+                order.append(t)
+    placed = tuple((part, order.index(ta), order.index(tb)) for part, (ta, tb) in terminals.items())
+    names = {(min(i, j), max(i, j)): part for part, i, j in placed}
+    layout = (tuple(order), placed, names, frozenset(order))
+    _LAYOUTS[id(terminals)] = (terminals, layout)
+    return layout
 
 
 #: A remainder below this fraction of the matrix's largest entry is round-off: no ctrans part.
@@ -73,6 +102,8 @@ def split(cm: CapacitanceMatrix) -> tuple[list[tuple[str, int, int, float]], np.
     remainder : ndarray, shape (k, k), or None
         A in farads; None when C is symmetric to round-off (:data:`RECIPROCAL`).
     """
+    if cm.pairs is not None:  # made of two-terminal parts: they sum to its symmetric part, exactly
+        return cm.pairs, None
     c = cm.matrix
     sym = 0.5 * (c + c.T)
     pairs = []

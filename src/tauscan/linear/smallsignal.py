@@ -10,6 +10,7 @@ from every node to ground.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from operator import itemgetter
 
 import numpy as np
 import scipy.sparse as sp
@@ -146,10 +147,14 @@ def _device_stamps(op: OperatingPoint, g: Triplets, c: Triplets) -> tuple[list[C
         cm = ss.capacitance
         if cm is None:
             continue
-        pairs, remainder = split_capacitance(cm)
+        if cm.pairs is not None:  # two-terminal parts (the split's own shortcut, inlined: one per device)
+            pairs, remainder = cm.pairs, None
+        else:
+            pairs, remainder = split_capacitance(cm)
         nodes = cm.nodes
-        for part, i, j, value in pairs:
-            caps.append(CapacitorRecord(f"{dev.name}:{part}", nodes[i], nodes[j], value, dev.file, dev.line, dev.name))
+        name, file, line = dev.name, dev.file, dev.line
+        caps.extend([CapacitorRecord(f"{name}:{part}", nodes[i], nodes[j], value, file, line, name)
+                     for part, i, j, value in pairs])
         if remainder is not None:
             rows = [idx[x] for x in nodes]
             for i, j in zip(*np.nonzero(remainder)):
@@ -179,7 +184,12 @@ def linearize(op: OperatingPoint, gmin: float = GMIN) -> SmallSignalNetwork:
     g.extend(net.gmin_triplets(gmin))
     table = circuit.passives
     names, a, b, farads, files, lines = table.names, table.a, table.b, table.values, table.files, table.lines
-    explicit = [CapacitorRecord(names[k], a[k], b[k], farads[k], files[k], lines[k]) for k in net.passive_c.tolist()]
+    rows = net.passive_c.tolist()
+    if len(rows) > 1:  # the table's capacitor rows, column by column (each column taken in C)
+        take = itemgetter(*rows)
+        explicit = list(map(CapacitorRecord, take(names), take(a), take(b), take(farads), take(files), take(lines)))
+    else:
+        explicit = [CapacitorRecord(names[k], a[k], b[k], farads[k], files[k], lines[k]) for k in rows]
     explicit += [_explicit(e) for e in circuit.general if e.kind == "c"]
     return SmallSignalNetwork(
         circuit=circuit,

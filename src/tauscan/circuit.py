@@ -117,6 +117,13 @@ class Model:
     params: dict[str, float]
     file: str
     line: int
+    #: the name on its card (``nshort_model.3``), without the instance path of a model
+    #: defined inside a subcircuit (empty: the same as ``name``)
+    written: str = ""
+
+    @property
+    def card_name(self) -> str:
+        return self.written or self.name
 
 
 @dataclass

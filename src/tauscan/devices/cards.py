@@ -8,6 +8,7 @@ tables of model parameters), recalled from memory.
 from __future__ import annotations
 
 import math
+import os
 
 from tauscan.circuit import Element, Model
 from tauscan.errors import CircuitError
@@ -110,25 +111,50 @@ def mos_parameters(model: Model, element: Element, warnings: list[str]) -> dict:
     params = merged(MOS_DEFAULTS, model)
     level = int(params.get("level") or 1)
     if level != 1:
-        notes = _map_other_level(model, params, level)
-        key = f"model {model.name} (level {level})"
-        for note in notes:
-            text = f"{key}: {note}; pass the operating point with --op for accurate figures"
-            if text not in warnings:
-                warnings.append(text)
+        notes = _map_other_level(model, params, level, element)
+        # one warning per model card, however many instances (and per-instance copies) use it
+        where = f"{os.path.basename(model.file)}:{model.line}" if model.file else ""
+        text = (f"model {model.card_name} (level {level}{', ' + where if where else ''}): " + "; ".join(notes)
+                + "; pass the operating point with --op for accurate figures")
+        if text not in warnings:
+            warnings.append(text)
     return _validate(model, params, "mos")
 
 
-def _map_other_level(model: Model, params: dict, level: int) -> list[str]:
+#: Early voltage per micron of channel length that stands in for a BSIM card's output
+#: conductance under the level-1 law (rough: common practice, from memory).
+EARLY_VOLTS_PER_UM = 10.0
+
+
+def _binned(given: dict, key: str, element: Element) -> float:
+    """A BSIM parameter with its binning terms, P = P0 + PL/L + PW/W + PP/(L W) (BSIM4 manual,
+    binning), taken at the drawn L and W per finger of ``element`` (microns when BINUNIT = 1)."""
+    value = given[key]
+    terms = [given.get(prefix + key, 0.0) for prefix in ("l", "w", "p")]
+    if not any(terms):
+        return value
+    length = element.params.get("l", MOS_INSTANCE["l"])
+    width = element.params.get("w", MOS_INSTANCE["w"]) / max(element.params.get("nf", 1.0), 1.0)
+    if given.get("binunit", 1.0) == 1.0:
+        length, width = length * 1e6, width * 1e6
+    return value + terms[0] / length + terms[1] / width + terms[2] / (length * width)
+
+
+def _map_other_level(model: Model, params: dict, level: int, element: Element) -> list[str]:
     given = model.params
     notes: list[str] = []
-    if level in (2, 3):
+    bsim = level not in (2, 3)
+    if not bsim:
         notes.append(f"level {level} evaluated with the level-1 square law; its extra effects are not modelled")
     else:
-        notes.append("BSIM-family card evaluated with the level-1 square law using its level-1-equivalent parameters")
+        notes.append("level 1 stands in for this BSIM-family card until BSIM is evaluated: the square law "
+                     "with its level-1-equivalent parameters")
+        if "lambda" in params and "lambda" in given:
+            del params["lambda"]  # BSIM4's LAMBDA is velocity overshoot, not channel-length modulation
+            params["lambda"] = MOS_DEFAULTS["lambda"]
     for src, dst, note in _MOS_MAP:
         if src in given and dst not in given:
-            value = given[src]
+            value = _binned(given, src, element) if bsim else given[src]
             if src == "u0" and value < 1.0:
                 value *= 1e4  # BSIM gives U0 in m^2/Vs when below 1 (common practice)
             params[dst] = value
@@ -145,7 +171,14 @@ def _map_other_level(model: Model, params: dict, level: int) -> list[str]:
             f"model {model.name!r} (level {level}) has no level-1 equivalent: it lacks {' and '.join(missing)}; "
             "supply the operating point with --op"
         )
-    if "lambda" not in given:
+    if bsim:
+        length_um = element.params.get("l", MOS_INSTANCE["l"]) * 1e6
+        params["lambda"] = 1.0 / (EARLY_VOLTS_PER_UM * length_um)
+        notes.append(f"output conductance from a rough Early voltage of {EARLY_VOLTS_PER_UM:g} V per micron of L "
+                     f"(LAMBDA={params['lambda']:.3g}/V)")
+        if any(given.get(prefix + key) for key in ("vth0", "u0", "k1") for prefix in ("l", "w", "p")):
+            notes.append("VTH0, U0 and K1 binned at the first instance's L and W")
+    elif "lambda" not in given:
         notes.append("no LAMBDA: output conductance is zero (ideal current source outputs)")
     return notes
 

@@ -11,7 +11,7 @@ from collections.abc import Callable
 from typing import Protocol
 
 from tauscan.circuit import Element, SourceSpec, Waveform
-from tauscan.errors import NetlistSyntaxError, did_you_mean
+from tauscan.errors import NetlistSyntaxError, TauscanError, did_you_mean
 from tauscan.reader.fields import VALUE_TYPES, Field, Group, Param, Word, show
 from tauscan.reader.lines import Card, PlainValueCard
 
@@ -29,7 +29,7 @@ class Frame(Protocol):
 
     def node(self, raw: str) -> str: ...
     def value(self, f: Field, card: Card) -> float: ...
-    def model(self, raw: str) -> str | None: ...
+    def model(self, raw: str, instance: dict[str, float] | None = None) -> str | None: ...
 
 
 def _need(pos: list[Field], count: int, card: Card, what: str) -> None:
@@ -187,9 +187,22 @@ def coupling(letter: str, name: str, pos: list[Field], params: list[Field], card
     return Element(name, "k", (), k, None, _params(params, card, frame), card.file, card.line, control=control, comment=card.comment)
 
 
-def _device(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame, count: int, what: str) -> Element:
+def _model(frame: Frame, f: Field, values: dict[str, float], card: Card) -> str | None:
+    """The flat model an element's model field names (a bin of it chosen by ``values``)."""
+    try:
+        return frame.model(f.text, values)
+    except TauscanError as exc:
+        if exc.file is not None:
+            raise
+        raise card.error(type(exc), exc.message, f.offset) from None
+
+
+def _device(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame, count: int, what: str,
+            values: dict[str, float] | None = None) -> Element:
     _need(pos, count + 1, card, f"the {what} nodes and the model")
-    model = frame.model(pos[count].text)
+    if values is None:
+        values = _params(params, card, frame)
+    model = _model(frame, pos[count], values, card)
     if model is None:
         known = []
         scope = frame.definition
@@ -198,7 +211,7 @@ def _device(letter: str, name: str, pos: list[Field], params: list[Field], card:
             scope = scope.parent
         raise card.error(NetlistSyntaxError, f"model {pos[count].text!r} is not defined" + did_you_mean(pos[count].text, known),
                          pos[count].offset)
-    values = _params(params, card, frame)
+    values = dict(values)
     if len(pos) > count + 1:
         if type(pos[count + 1]) is Word and pos[count + 1].text.lower() == "off":
             values["off"] = 1.0
@@ -228,9 +241,10 @@ def bipolar(letter: str, name: str, pos: list[Field], params: list[Field], card:
     substrate node (the usual SPICE reading).
     """
     _need(pos, 4, card, "collector, base and emitter nodes and the model")
-    if type(pos[3]) is Word and frame.model(pos[3].text) is not None:
-        return _device(letter, name, pos, params, card, frame, 3, "collector, base and emitter")
-    return _device(letter, name, pos, params, card, frame, 4, "collector, base, emitter and substrate")
+    values = _params(params, card, frame)
+    if len(pos) == 4 or (type(pos[3]) is Word and _model(frame, pos[3], values, card) is not None):
+        return _device(letter, name, pos, params, card, frame, 3, "collector, base and emitter", values)
+    return _device(letter, name, pos, params, card, frame, 4, "collector, base, emitter and substrate", values)
 
 
 RULES: dict[str, Callable[..., Element]] = {

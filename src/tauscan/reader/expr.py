@@ -53,6 +53,18 @@ def _pow(x: float, y: float) -> float:
     return math.pow(x, y)
 
 
+def _nominal(*args: float) -> float:
+    """A statistical function's nominal value: its first argument (no Monte-Carlo draw)."""
+    return args[0]
+
+
+#: Statistical functions of PDK libraries (``agauss(nominal, absolute variation, sigmas)``,
+#: ``gauss(nominal, relative variation, sigmas)``, ``aunif(nominal, absolute variation)``,
+#: ``unif(nominal, relative variation)``, ``limit(nominal, variation)``, each with an optional
+#: multiplier, as the HSPICE-style libraries write them; common practice).  tauscan evaluates
+#: the nominal case only: each gives its first argument.
+STATISTICAL = ("agauss", "gauss", "aunif", "unif", "limit")
+
 #: name -> (function, number of arguments or None for any number >= 1)
 FUNCTIONS: dict[str, tuple[Callable[..., float], int | None]] = {
     "sqrt": (_sqrt, 1),
@@ -76,6 +88,10 @@ FUNCTIONS: dict[str, tuple[Callable[..., float], int | None]] = {
     "ceil": (lambda x: float(math.ceil(x)), 1),
     "int": (lambda x: float(math.trunc(x)), 1),
     "sgn": (_sgn, 1),
+    "sign": (_sgn, 1),
+    "asin": (math.asin, 1),
+    "acos": (math.acos, 1),
+    **{name: (_nominal, None) for name in STATISTICAL},
 }
 
 CONSTANTS = {"pi": math.pi}
@@ -101,9 +117,29 @@ def _nesting(text: str) -> int:
     return best
 
 
+_BRACES = str.maketrans("{}", "()")
+
+
+def _as_parentheses(text: str) -> str:
+    """Braces, and pairs of quotes, inside an expression read as parentheses (libraries write
+    ``{"-a-b/2"}`` and ``{x} + y``); the length stays, so columns hold."""
+    text = text.translate(_BRACES)
+    if "'" not in text and '"' not in text:
+        return text
+    out = list(text)
+    opening = True
+    for i, ch in enumerate(text):
+        if ch in "'\"":
+            out[i] = "(" if opening else ")"
+            opening = not opening
+    return "".join(out)
+
+
 @lru_cache(maxsize=65536)
 def parse_expression(text: str) -> Tree | Token:
     """Parse tree of an expression (cached: netlists repeat the same ones)."""
+    if "{" in text or "'" in text or '"' in text:
+        text = _as_parentheses(text)
     if _nesting(text) > MAX_NESTING or text.count("-") > 4 * MAX_NESTING:
         raise ExpressionError(f"expression nested deeper than {MAX_NESTING} levels")
     try:

@@ -232,3 +232,71 @@ def _syntax_error(card: Card, exc: UnexpectedInput) -> NetlistSyntaxError:
     else:
         message = "this card cannot be read"
     return card.error(NetlistSyntaxError, message, offset)
+
+
+#: ``name =`` at the start of an assignment: a name after the start, white space or a comma,
+#: then ``=`` that is not ``==`` (``<=``, ``>=`` and ``!=`` never follow a name directly).
+_ASSIGNMENT = re.compile(r"(?:^|(?<=[\s,]))([A-Za-z_][\w.]*)\s*=(?!=)")
+_OPENERS = {"(": ")", "{": "}"}
+
+
+def _masked(text: str) -> str | None:
+    """``text`` with everything inside parentheses, braces and quotes replaced by ``#`` (same
+    length), so that only the top level is searched; None when they do not balance."""
+    out = list(text)
+    closers: list[str] = []
+    quote = ""
+    for i, ch in enumerate(text):
+        if quote:
+            if ch == quote:
+                quote = ""
+            else:
+                out[i] = "#"
+        elif ch in "'\"":
+            quote = ch
+        elif ch in _OPENERS:
+            if closers:
+                out[i] = "#"
+            closers.append(_OPENERS[ch])
+        elif ch in ")}":
+            if not closers or closers[-1] != ch:
+                return None
+            closers.pop()
+            if closers:
+                out[i] = "#"
+        elif closers:
+            out[i] = "#"
+    if quote or closers:
+        return None
+    return "".join(out)
+
+
+def assignments(card: Card, start: int) -> list[Param]:
+    """``name = expression`` pairs of a card's text from ``start``, where an expression may
+    hold white space and mix braced, quoted and bare parts (``a = {1+x} + b*agauss(0,1,1)``,
+    as PDK libraries write).  Each value is a :class:`Braced` record whose text is the
+    expression with braces and quotes turned into parentheses (same length, so offsets hold).
+    Raises a located error for text that is not such a pair."""
+    text = card.text
+    masked = _masked(text[start:])
+    if masked is None:
+        raise card.error(NetlistSyntaxError, "unbalanced parentheses, braces or quotes in this card", start)
+    found = list(_ASSIGNMENT.finditer(masked))
+    if not found:
+        raise card.error(NetlistSyntaxError, "expected name=value here", start + len(masked) - len(masked.lstrip()))
+    lead = masked[: found[0].start()]
+    if lead.strip():
+        raise card.error(NetlistSyntaxError, f"expected name=value, not {lead.strip()!r}", start + len(lead) - len(lead.lstrip()))
+    out: list[Param] = []
+    for k, match in enumerate(found):
+        lo = match.end()
+        hi = found[k + 1].start() if k + 1 < len(found) else len(masked)
+        raw = text[start + lo : start + hi]
+        body = raw.strip()
+        if not body:
+            raise card.error(NetlistSyntaxError, f"'{match.group(1)}=' has no value", start + match.start())
+        value_at = start + lo + (len(raw) - len(raw.lstrip()))
+        if body.endswith(","):
+            body = body[:-1].rstrip()
+        out.append(Param(match.group(1).lower(), Braced(body, value_at), start + match.start()))
+    return out

@@ -9,21 +9,27 @@ places which.
 from __future__ import annotations
 
 import math
+import re
 from itertools import repeat
 from operator import attrgetter, itemgetter, methodcaller
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
-from tauscan.errors import HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
+from tauscan.errors import ExpressionError, HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
 from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field, Group, Param, Word, card_fields, show
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
 from tauscan.reader.loader import Definition, Netlist
 from tauscan.reader.scope import ParamScope, field_value
-from tauscan.units import parse_number
+from tauscan.units import eng, parse_number
 
 #: Numbers already met as plain words (text -> a finite float); bounded like parse_number's memo.
 _NUMBERS: dict[str, float] = {}
 _NUMBERS_MAX = 200_000
+
+_MISSING = object()
+
+#: A bin limit written ``key = number`` on a model card (for choosing a bin without parsing it).
+_BIN_LIMIT = re.compile(r"(?<![\w.])(lmin|lmax|wmin|wmax)\s*=\s*([^\s=(){}'\",]*)", re.I)
 
 #: Deepest chain of nested subcircuit instances.
 MAX_DEPTH = 1000
@@ -34,6 +40,18 @@ _GROUND_OF = {name: GROUND for name in GROUND_NAMES}
 
 #: The first six words of a line and the rest (see :meth:`Flattener._device_elements`).
 _SEVEN = methodcaller("split", None, 6)
+
+
+#: The geometry a MOSFET line without W or L has (metres; the SPICE defaults, see
+#: :data:`tauscan.devices.cards.MOS_INSTANCE`), for choosing its bin.
+MOS_DEFAULT_W = MOS_DEFAULT_L = 100e-6
+
+
+def _within(value: float, lo: float, hi: float) -> bool:
+    """``lo <= value < hi``, both ends with a relative tolerance of 1e-9 (a geometry written
+    in microns and scaled is not exactly the card's number)."""
+    tol = 1e-9 * abs(value)
+    return lo - tol <= value < hi - tol
 
 
 def _plain_number(text: str) -> float | None:
@@ -64,9 +82,11 @@ def _numeric_params(pairs: list[str]) -> dict[str, float] | None:
 class Frame:
     """One instance being expanded: its definition, name prefix, pins and parameters."""
 
-    __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models", "_nodes")
+    __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models", "_nodes",
+                 "mult", "solo")
 
-    def __init__(self, definition: Definition, prefix: str, pins: dict[str, str], scope: ParamScope, parent: "Frame | None", flattener: "Flattener", depth: int) -> None:
+    def __init__(self, definition: Definition, prefix: str, pins: dict[str, str], scope: ParamScope, parent: "Frame | None",
+                 flattener: "Flattener", depth: int, mult: float = 1.0, solo: str | None = None) -> None:
         self.definition = definition
         self.prefix = prefix
         self.pins = pins
@@ -76,6 +96,15 @@ class Frame:
         self.depth = depth
         self._models: dict[str, str | None] = {}
         self._nodes: dict[str, str] = {}
+        #: how many copies of this instance stand in parallel (``m=`` on the X lines above it)
+        self.mult = mult
+        #: the instance's name when its definition holds one element only (a device wrapper,
+        #: as PDK libraries write): that element is reported under it
+        self.solo = solo
+
+    def element_name(self, name: str) -> str:
+        """The flat name of an element written ``name`` in this instance."""
+        return self.solo or self.prefix + name
 
     def node(self, raw: str) -> str:
         try:
@@ -114,11 +143,17 @@ class Frame:
                 return number
         return field_value(f, card, self.scope)
 
-    def model(self, raw: str) -> str | None:
+    def model(self, raw: str, instance: dict[str, float] | None = None) -> str | None:
+        """Flat name of the model an element names, None when there is none.  A binned model
+        (``name.1``, ``name.2``, ...) is chosen by the element's geometry, ``instance``; without
+        it a binned name gives None."""
         key = raw.lower()
-        if key not in self._models:
-            self._models[key] = self.flattener.model_for(self, key)
-        return self._models[key]
+        found = self._models.get(key, _MISSING)
+        if found is _MISSING:
+            found, binned = self.flattener.model_for(self, key, instance)
+            if not binned:
+                self._models[key] = found
+        return found
 
 
 class Flattener:
@@ -147,28 +182,87 @@ class Flattener:
         #: the parameters of plain MOSFET lines by their text: lines that read the same share
         #: one dictionary (elements' parameters are never changed once read)
         self.param_sets: dict[str, dict[str, float]] = {}
+        #: (instance prefix, bin card name) -> its (lmin, lmax, wmin, wmax)
+        self.bin_limits: dict[tuple[str, str], tuple[float, float, float, float]] = {}
+        #: ``.option scale`` (geometry written in its units), set with the other options
+        self.scale = 1.0
+        #: MOSFETs whose scaled W or L is below 1 nm: (name, W, L)
+        self.tiny_geometry: list[tuple[str, float, float]] = []
+        #: id of a definition -> whether it holds one element only (a device wrapper)
+        self.solo_definitions: dict[int, bool] = {}
 
     # -- models ----------------------------------------------------------------
-    def model_for(self, frame: Frame, name: str) -> str | None:
-        """Flat name of model ``name`` as seen from ``frame`` (lexical scope), built on first use."""
+    def model_for(self, frame: Frame, name: str, instance: dict[str, float] | None = None) -> tuple[str | None, bool]:
+        """Flat name of model ``name`` as seen from ``frame`` (lexical scope), built on first use,
+        and whether it was chosen among bins (by ``instance``'s geometry)."""
         owner: Definition | None = frame.definition
-        while owner is not None and name not in owner.models:
+        while owner is not None and name not in owner.models and name not in owner.bins:
             owner = owner.parent
         if owner is None:
-            return None
+            return None, False
         # the frame that instantiated the owning definition gives the name prefix and parameters
         host: Frame | None = frame
         while host is not None and host.definition is not owner:
             host = host.parent
         if host is None:
             host = frame
+        binned = name not in owner.models
+        if binned:
+            if instance is None:
+                return None, True
+            name = self._bin(owner, host, name, instance)
         flat = host.prefix + name
         if flat not in self.circuit.models:
-            fields, card = owner.models[name]
-            self.circuit.models[flat] = self._model(flat, fields, card, host)
-        return flat
+            fields, card = owner.model_fields(name)
+            self.circuit.models[flat] = self._model(flat, fields, card, host, name)
+        return flat, binned
 
-    def _model(self, flat: str, fields: list[Field], card: Card, frame: Frame) -> Model:
+    def _bin(self, owner: Definition, host: Frame, base: str, instance: dict[str, float]) -> str:
+        """The bin of model ``base`` for an element's geometry: ``lmin <= L < lmax`` and
+        ``wmin <= W/nf < wmax`` (the half-open rule of SPICE binning, with the width per finger
+        as SKY130 is binned; common practice, from memory), L and W in metres after
+        ``.option scale``.  Raises (unlocated) when no bin fits."""
+        s = self.scale
+        length = instance["l"] * s if "l" in instance else MOS_DEFAULT_L
+        width = (instance["w"] * s if "w" in instance else MOS_DEFAULT_W) / max(instance.get("nf", 1.0), 1.0)
+        ranges = []
+        for name in owner.bins[base]:
+            key = (host.prefix, name)
+            limits = self.bin_limits.get(key)
+            if limits is None:
+                limits = self.bin_limits[key] = self._limits(owner, name, host)
+            lmin, lmax, wmin, wmax = limits
+            if _within(length, lmin, lmax) and _within(width, wmin, wmax):
+                return name
+            ranges.append(limits)
+        lo_l = min(r[0] for r in ranges)
+        hi_l = max(r[1] for r in ranges)
+        lo_w = min(r[2] for r in ranges)
+        hi_w = max(r[3] for r in ranges)
+        raise NetlistSyntaxError(
+            f"no bin of model {base!r} fits L={eng(length, 'm')} and W/nf={eng(width, 'm')} "
+            f"(its {len(ranges)} bins span L {eng(lo_l, 'm')} to {eng(hi_l, 'm')}, "
+            f"W/nf {eng(lo_w, 'm')} to {eng(hi_w, 'm')})")
+
+    @staticmethod
+    def _limits(owner: Definition, name: str, host: Frame) -> tuple[float, float, float, float]:
+        """``(lmin, lmax, wmin, wmax)`` of a bin card, evaluated alone (not the whole card): read
+        off its text when they are plain numbers, else from its parsed fields."""
+        card = owner.models[name][1]
+        found = {"lmin": 0.0, "lmax": math.inf, "wmin": 0.0, "wmax": math.inf}
+        written = {m.group(1).lower(): m.group(2) for m in _BIN_LIMIT.finditer(card.text)}
+        numbers = {key: _plain_number(text.lower()) for key, text in written.items()}
+        if None not in numbers.values() and len(written) == len(_BIN_LIMIT.findall(card.text)):
+            found.update(numbers)
+            return found["lmin"], found["lmax"], found["wmin"], found["wmax"]
+        fields, card = owner.model_fields(name)
+        for f in fields[1:]:
+            for item in (f.items if type(f) is Group else (f,)):
+                if type(item) is Param and item.key in found:
+                    found[item.key] = host.value(item.value, card)
+        return found["lmin"], found["lmax"], found["wmin"], found["wmax"]
+
+    def _model(self, flat: str, fields: list[Field], card: Card, frame: Frame, written: str) -> Model:
         mtype = fields[0].text.lower()
         params: dict[str, float] = {}
         items: list[Field] = []
@@ -179,7 +273,7 @@ class Flattener:
                 params[f.key] = frame.value(f.value, card)
             elif type(f) is Group:
                 raise card.error(NetlistSyntaxError, "nested parentheses in '.model'", f.offset)
-        return Model(flat, mtype, params, card.file, card.line)
+        return Model(flat, mtype, params, card.file, card.line, written)
 
     # -- expansion ---------------------------------------------------------------
     def run(self) -> Circuit:
@@ -187,9 +281,12 @@ class Flattener:
         check_recursion(top)
         root = Frame(top, "", {}, self.top_scope, None, self, 0)
         self._settings(root)
-        # models defined at the top are kept even when no element uses them
-        for name in top.models:
-            root.model(name)
+        # models that the netlist itself defines at the top are kept even when no element uses
+        # them; a library's models are evaluated only when an element uses them (a PDK library
+        # holds hundreds, some for parameters that only other corners define)
+        for name, (_, card) in top.models.items():
+            if card.file == self.netlist.file:
+                root.model(name)
         stack: list[tuple[Frame, int]] = [(root, 0)]
         while stack:
             frame, index = stack.pop()
@@ -213,8 +310,41 @@ class Flattener:
                     stack.append((frame, index))
                     stack.append((child, 0))
                     break
-                self._add(self._element(frame, name, fields, card), card)
+                self._add(self._element(frame, name, fields, card), card, frame)
+        if self.tiny_geometry:
+            count, first, width, length = len(self.tiny_geometry), *self.tiny_geometry[0]
+            self.circuit.warnings.append(
+                f"{count} MOSFET(s) have W or L below 1 nm after '.option scale={self.scale:g}' (first: {first}, "
+                f"W={eng(width, 'm')}, L={eng(length, 'm')}): a value written with a micro suffix (w=2u) is "
+                "scaled again; with that option write w=2 l=0.15")
         return self.circuit
+
+    def _finish(self, element: Element, mult: float) -> None:
+        """``.option scale`` on a MOSFET's geometry (W and L times the scale, areas times its
+        square, perimeters times it, as SPICE simulators apply it), and ``mult`` parallel
+        copies of an instance (``m=`` on the X lines above the element)."""
+        kind = element.kind
+        params = dict(element.params)  # (shared between elements: never changed in place)
+        if kind == "m" and self.scale != 1.0:
+            s = self.scale
+            for key, power in (("w", 1), ("l", 1), ("ad", 2), ("as", 2), ("pd", 1), ("ps", 1)):
+                if key in params:
+                    params[key] *= s**power
+            width, length = params.get("w", MOS_DEFAULT_W), params.get("l", MOS_DEFAULT_L)
+            if min(width, length) < 1e-9:
+                self.tiny_geometry.append((element.name, width, length))
+        if mult != 1.0:
+            if kind in "rcmqd":
+                params["m"] = params.get("m", 1.0) * mult
+            elif kind == "l":
+                element.value = element.value / mult
+            elif kind in "igf":
+                element.value = element.value * mult
+                spec = element.source
+                if spec is not None:
+                    spec.dc *= mult
+                    spec.ac_mag *= mult
+        element.params = params
 
     def _settings(self, root: Frame) -> None:
         net = self.netlist
@@ -230,6 +360,12 @@ class Flattener:
                     self.circuit.options[key] = root.value(f, card)
                 except TauscanError:
                     self.circuit.options[key] = show(f)
+        scale = self.circuit.options.get("scale")
+        if isinstance(scale, float):
+            if not scale > 0:
+                f, card = net.options["scale"]
+                raise card.error(NetlistSyntaxError, "'.option scale' must be positive", f.offset)
+            self.scale = scale
 
     def _plain_run(self, frame: Frame, run: PlainRun) -> None:
         """A run of plain R and C lines, column by column, into the circuit's table (the checks
@@ -271,6 +407,9 @@ class Flattener:
             self._rebuild_names()
             return False
         self._commit_rows(run, *rows, checked=True)
+        if frame.mult != 1.0 or self.scale != 1.0:
+            for element in elements:
+                self._finish(element, frame.mult)
         self.circuit.add_many(elements, map(base.__add__, run.at))
         return True
 
@@ -294,7 +433,7 @@ class Flattener:
         for name in dict.fromkeys(map(itemgetter(5), parts)):  # first met first: the models' order
             if name not in known:
                 frame.model(name)
-        models = list(map(known.__getitem__, map(itemgetter(5), parts)))
+        models = list(map(known.get, map(itemgetter(5), parts)))
         if None in models:
             return None
         shared = self.param_sets
@@ -314,7 +453,9 @@ class Flattener:
         ground_names = "gnd" in text
         nodes = list(zip(*(frame.nodes(list(map(itemgetter(k), parts)), ground_names) for k in (1, 2, 3, 4))))
         names = list(map(itemgetter(0), parts))
-        if frame.prefix:
+        if frame.solo:
+            names = [frame.solo] * len(names)
+        elif frame.prefix:
             names = list(map(frame.prefix.__add__, names))
         count = len(parts)
         return list(map(Element, names, repeat("m", count), nodes, repeat(None, count), models, params,
@@ -325,7 +466,9 @@ class Flattener:
         ``(frame, lo, hi, names, kinds, values, warnings)``."""
         columns = run.columns
         names = columns.names[lo:hi]
-        if frame.prefix:
+        if frame.solo:
+            names = [frame.solo] * len(names)
+        elif frame.prefix:
             names = list(map(frame.prefix.__add__, names))
         words = columns.values[lo:hi]
         values = list(map(_NUMBERS.get, words))
@@ -339,6 +482,9 @@ class Flattener:
                     warnings.append(f"{run.file}:{columns.lines[lo + k]}: capacitor {names[k]} has zero value")
                 else:
                     check_passive_value(kind, value, PlainValueCard(run, lo + k, words[k]), 0)
+        if frame.mult != 1.0:  # copies in parallel: resistors divide, capacitors add
+            mult = frame.mult
+            values = [v / mult if kind == "r" else v * mult for kind, v in zip(kinds, values)]
         return frame, lo, hi, names, kinds, values, warnings
 
     def _commit_rows(self, run: PlainRun, frame: Frame, lo: int, hi: int, names: list[str], kinds: list[str],
@@ -375,9 +521,9 @@ class Flattener:
         if element is None:
             card = item.card()
             fields = card_fields(card)[1]
-            self._add(self._element(frame, fields[0].text.lower(), fields, card), card)
+            self._add(self._element(frame, fields[0].text.lower(), fields, card), card, frame)
             return
-        self._add(element, item)
+        self._add(element, item, frame)
 
     @staticmethod
     def _device_element(frame: Frame, item: DeviceLine) -> Element | None:
@@ -392,7 +538,7 @@ class Flattener:
             return None
         node = frame.node
         nodes = (node(words[1]), node(words[2]), node(words[3]), node(words[4]))
-        return Element(frame.prefix + words[0], "m", nodes, None, model, params, item.file, item.line)
+        return Element(frame.element_name(words[0]), "m", nodes, None, model, params, item.file, item.line)
 
     @staticmethod
     def _plain_values(frame: Frame, run: PlainRun, lo: int, words: list[str], values: list) -> None:
@@ -422,9 +568,11 @@ class Flattener:
         params: list[Field] = []
         for f in fields[1:]:
             (params if type(f) is Param else pos).append(f)
-        return RULES[name[0]](name[0], frame.prefix + name, pos, params, card, frame)
+        return RULES[name[0]](name[0], frame.element_name(name), pos, params, card, frame)
 
-    def _add(self, element: Element, card: Card | DeviceLine) -> None:
+    def _add(self, element: Element, card: Card | DeviceLine, frame: Frame) -> None:
+        if frame.mult != 1.0 or (self.scale != 1.0 and element.kind == "m"):
+            self._finish(element, frame.mult)
         if element.name in self.names:
             where = self._first_at(element.name)
             raise card.error(NetlistSyntaxError, f"element {element.name!r} is defined twice (first at {where})", 0)
@@ -460,18 +608,86 @@ class Flattener:
             )
         if frame.depth + 1 > MAX_DEPTH:
             raise card.error(HierarchyError, f"subcircuit instances nested deeper than {MAX_DEPTH}", 0)
-        values: dict[str, float] = {}
-        for f in params:
-            key = f.key
-            if key not in definition.defaults and key not in definition.params:
-                raise card.error(HierarchyError, f"subcircuit {definition.name!r} has no parameter {key!r}", f.offset)
-            values[key] = frame.value(f.value, card)
         raw = dict(definition.params)
         raw.update(definition.defaults)
-        scope = ParamScope(raw, frame.scope, values)
+        given = {f.key: f for f in params}
+        mult = frame.mult
+        for key in ("m", "mult"):
+            f = given.get(key)
+            if f is not None and key not in raw:  # not a parameter of the subcircuit: copies in parallel
+                del given[key]
+                copies = frame.value(f.value, card)
+                if not copies > 0:
+                    raise card.error(NetlistSyntaxError, f"'{key}=' must be positive, not {copies:g}", f.value.offset)
+                mult *= copies
+        for key, f in given.items():
+            if key not in raw:
+                raise card.error(HierarchyError, f"subcircuit {definition.name!r} has no parameter {key!r}"
+                                 + did_you_mean(key, raw), f.offset)
+        scope = ParamScope(raw, frame.scope)
+        _InstanceValues(given, card, frame.scope, scope, scope.values).run()
         pins = {pin: frame.node(f.text) for pin, f in zip(definition.pins, nodes)}
         prefix = frame.prefix + name + "."
-        return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1)
+        solo = frame.prefix + name if self._single_element(definition) else None
+        return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1, mult, solo)
+
+    def _single_element(self, definition: Definition) -> bool:
+        """Whether a definition holds exactly one element, a semiconductor device (M, Q or D),
+        and nothing else: a device wrapper, as PDK libraries write them."""
+        known = self.solo_definitions.get(id(definition))
+        if known is None:
+            items = definition.elements
+            first = items[0] if len(items) == 1 else None
+            known = (type(first) is DeviceLine
+                     or (type(first) is tuple and first[0][0] in "mqd")
+                     or (type(first) is PlainRun and first.hi == first.lo and len(first.devices or ()) == 1))
+            self.solo_definitions[id(definition)] = known
+        return known
+
+
+class _InstanceValues:
+    """The parameters an instance line gives, evaluated: a name in one of them is another
+    parameter of the same line (``ad='int((nf+1)/2) * W/nf * 0.29'``, as schematic tools write
+    for PDK devices), else a parameter of the scope of the line (so ``w={w}`` passes the
+    caller's ``w`` down), else a default of the subcircuit."""
+
+    __slots__ = ("given", "card", "outer", "inner", "values", "busy", "key")
+
+    def __init__(self, given: dict[str, Param], card: Card, outer: ParamScope, inner: ParamScope,
+                 values: dict[str, float]) -> None:
+        self.given, self.card, self.outer, self.inner, self.values = given, card, outer, inner, values
+        self.busy: list[str] = []
+
+    def run(self) -> None:
+        for key in self.given:
+            self.value(key)
+
+    def value(self, key: str) -> float:
+        found = self.values.get(key)
+        if found is not None:
+            return found
+        f = self.given[key]
+        if key in self.busy:
+            raise self.card.error(ExpressionError, f"instance parameter {key!r} depends on itself (a parameter cycle)",
+                                  f.value.offset)
+        self.busy.append(key)
+        try:
+            found = field_value(f.value, self.card, self)
+        finally:
+            self.busy.pop()
+        self.values[key] = found
+        return found
+
+    def get(self, name: str) -> float:
+        """The value of a name in the expression of parameter ``self.busy[-1]``."""
+        if name != self.busy[-1] and name in self.given:
+            return self.value(name)
+        try:
+            return self.outer.get(name)
+        except KeyError:
+            if name == self.busy[-1] or name not in self.inner.raw:
+                raise
+            return self.inner.get(name)
 
 
 def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:

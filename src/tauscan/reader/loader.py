@@ -9,12 +9,24 @@ evaluated yet: parameters may be defined after their use, so values wait for
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass, field
 
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
-from tauscan.reader.fields import Field, Param, Quoted, Text, Word, card_fields
+from tauscan.reader.fields import Field, Param, Quoted, Text, Word, assignments, card_fields
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, logical_items, read_chunks
+
+#: A '.param' card's directive (and the white space after it).
+_PARAM_CARD = re.compile(r"\s*\.params?\b\s*", re.I)
+
+#: The head of a model card (``.model NAME TYPE``): a library's model cards (in a file that the
+#: netlist includes) are kept as cards and parsed when an element uses them, since a PDK
+#: library holds hundreds of cards of hundreds of parameters each, few of them used.
+_MODEL_HEAD = re.compile(r"\s*\.model\s+([^\s=(){}'\",]+)\s+[A-Za-z_]\w*(?=[\s(]|\Z)", re.I)
+
+#: A binned model card's name: ``base.N`` (the bins of one device, chosen by L and W).
+_BIN_NAME = re.compile(r"(.+)\.(\d+)\Z")
 
 #: Deepest chain of nested ``.include`` files.
 MAX_INCLUDE_DEPTH = 64
@@ -36,11 +48,26 @@ class Definition:
     parent: "Definition | None"
     defaults: dict[str, tuple[Field, Card]] = field(default_factory=dict)
     params: dict[str, tuple[Field, Card]] = field(default_factory=dict)
-    models: dict[str, tuple[list[Field], Card]] = field(default_factory=dict)
+    #: model cards by name: their fields after the name (None until first use for a library's
+    #: cards: :meth:`model_fields` gives them) and the card
+    models: dict[str, tuple[list[Field] | None, Card]] = field(default_factory=dict)
     subckts: dict[str, "Definition"] = field(default_factory=dict)
+    #: binned models: a base name -> the names of its ``base.N`` cards, in N order
+    bins: dict[str, list[str]] = field(default_factory=dict)
     #: element cards as ``(name, fields, card)``, runs of plain lines and plain MOSFET lines,
     #: in file order
     elements: list[tuple[str, list[Field], Card] | PlainRun | DeviceLine] = field(default_factory=list)
+
+    def model_fields(self, name: str) -> tuple[list[Field], Card]:
+        """The fields of model card ``name`` after its name (its type first), parsed on first
+        use for the cards of a library (see :data:`_MODEL_HEAD`)."""
+        fields, card = self.models[name]
+        if fields is None:
+            fields = card_fields(card)[1][2:]
+            if not fields or type(fields[0]) is not Word:
+                raise card.error(NetlistSyntaxError, "'.model' needs a name and a type", 0)
+            self.models[name] = (fields, card)
+        return fields, card
 
     def find_subckt(self, name: str) -> "Definition | None":
         scope: Definition | None = self
@@ -127,7 +154,20 @@ class Loader:
                 if text[:5].lower() == ".endl":
                     skip_section = None
                 continue
-            kind, fields = card_fields(card)
+            if self.include_chain and len(self.include_chain) > 1 and text[:6].lower() == ".model":
+                head = _MODEL_HEAD.match(text)
+                if head is not None:  # a library's model card: parsed when an element uses it
+                    self._model(card, head.group(1).lower(), None)
+                    continue
+            try:
+                kind, fields = card_fields(card)
+            except NetlistSyntaxError:
+                if not _PARAM_CARD.match(text):
+                    raise
+                # a '.param' card the card grammar cannot split (an expression with white
+                # space and '=' or quotes inside): its assignments are found on the text
+                self._params(card, None)
+                continue
             if kind == "element":
                 self._element(card, fields)
                 continue
@@ -164,15 +204,11 @@ class Loader:
         elif name == "model":
             if len(args) < 2 or _word(args[0]) is None or _word(args[1]) is None:
                 raise card.error(NetlistSyntaxError, "'.model' needs a name and a type", 0)
-            model_name = args[0].text.lower()
-            current.models[model_name] = (args[1:], card)
+            self._model(card, args[0].text.lower(), args[1:])
         elif name == "param" or name == "params":
             if not args:
                 raise card.error(NetlistSyntaxError, "'.param' with no assignment", 0)
-            for f in args:
-                if type(f) is not Param:
-                    raise card.error(NetlistSyntaxError, "'.param' takes name=value pairs", f.offset)
-                current.params[f.key] = (f.value, card)
+            self._params(card, args)
         elif name in ("include", "inc"):
             if not args or _filename(args[0]) is None:
                 raise card.error(IncludeError, "'.include' needs a file name", 0)
@@ -202,12 +238,37 @@ class Loader:
         else:
             net.warnings.append(f"{card.file}:{card.line}: '{directive}' is not understood and was skipped")
 
+    def _model(self, card: Card, name: str, fields: list[Field] | None) -> None:
+        current = self.stack[-1]
+        if name not in current.models:
+            binned = _BIN_NAME.match(name)
+            if binned is not None:
+                names = current.bins.setdefault(binned.group(1), [])
+                names.append(name)
+                names.sort(key=lambda n: int(n.rsplit(".", 1)[1]))
+        current.models[name] = (fields, card)
+
+    def _params(self, card: Card, args: list[Field] | None) -> None:
+        """The assignments of a '.param' card (``args``: its fields after the directive, or None
+        when the grammar could not split it)."""
+        current = self.stack[-1]
+        if args is None or any(type(f) is not Param for f in args):
+            match = _PARAM_CARD.match(card.text)
+            assert match is not None
+            args = assignments(card, match.end())
+        for f in args:
+            current.params[f.key] = (f.value, card)
+
     def _subckt(self, card: Card, args: list[Field]) -> None:
         if not args or _word(args[0]) is None:
             raise card.error(HierarchyError, "'.subckt' needs a name", 0)
         name = args[0].text.lower()
         pins: list[str] = []
         defaults: dict[str, tuple[Field, Card]] = {}
+        first = next((k for k, f in enumerate(args) if type(f) is Param), len(args))
+        if any(type(f) is not Param for f in args[first:]):
+            # defaults written as expressions with white space: found on the text
+            args = args[:first] + assignments(card, args[first].offset)
         for f in args[1:]:
             if type(f) is Word:
                 word = f.text.lower()

@@ -29,6 +29,10 @@ def _add_common(p: argparse.ArgumentParser, several: bool = False) -> None:
     else:
         p.add_argument("netlist", help="SPICE-format netlist file")
     p.add_argument("--param", action="append", default=[], metavar="NAME=VALUE", help="override a .param (repeatable)")
+    p.add_argument("-I", "--include-dir", dest="include_dirs", action="append", default=[], metavar="DIR",
+                   help="also look in DIR for .include and .lib files (repeatable; after the including file's folder)")
+    p.add_argument("--x-mega", action="store_true", default=None,
+                   help="read an x after a number as mega (100x = 1e8), as some simulators do")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -41,8 +41,7 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     p.set_defaults(handler=cmd_scan)
 
     p = sub.add_parser("check", help="lint gate: findings against thresholds and waivers, with exit codes")
-    p.add_argument("netlist", nargs="+", help="SPICE-format netlist files")
-    p.add_argument("--param", action="append", default=[], metavar="NAME=VALUE", help="override a .param (repeatable)")
+    add_common(p, several=True)
     _add_bias_options(p)
     _add_analysis_options(p)
     p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
@@ -115,9 +114,11 @@ def parse_params(items: Sequence[str]) -> dict[str, float]:
 
 
 def read_circuit(args: argparse.Namespace):
+    from tauscan.pipeline import ScanRequest, read_options, settings_for
     from tauscan.reader import read_netlist
 
-    return read_netlist(args.netlist, parse_params(args.param))
+    request = ScanRequest(args.netlist, include_dirs=tuple(args.include_dirs), x_mega=args.x_mega)
+    return read_netlist(args.netlist, parse_params(args.param), options=read_options(request, settings_for(request)))
 
 
 def solve(args: argparse.Namespace, circuit):
@@ -174,7 +175,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
                                         band=band, short=tuple(getattr(args, "short", ())),
                                         open=tuple(getattr(args, "open", ())), rank=getattr(args, "rank", None),
                                         corner=corner.name if corner else None,
-                                        lib_section=corner.lib if corner else None))
+                                        lib_section=corner.lib if corner else None,
+                                        include_dirs=tuple(args.include_dirs), x_mega=args.x_mega))
     if getattr(args, "plot", None) and requests:  # the plot draws the first run's transfer
         requests[0] = dataclasses.replace(requests[0], curve_points=PLOT_POINTS)
     return requests

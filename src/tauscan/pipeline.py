@@ -21,7 +21,7 @@ from tauscan.lint import settings as lint_settings
 from tauscan.lint.gate import LintResult, run_rules
 from tauscan.linear import linearize
 from tauscan.op import OperatingPoint, operating_point
-from tauscan.reader import read_netlist
+from tauscan.reader import ReadOptions, read_netlist
 
 
 @dataclass
@@ -45,6 +45,8 @@ class ScanRequest:
     rank: str | None = None
     corner: str | None = None  # name of the process/voltage/temperature corner, if any
     lib_section: str | None = None  # the corner's .lib section, if it selects one
+    include_dirs: tuple[str, ...] = ()  # -I folders, searched before the settings' include-dirs
+    x_mega: bool | None = None  # --x-mega; None: the settings' choice
 
 
 @dataclass
@@ -100,6 +102,12 @@ def settings_for(request: ScanRequest) -> lint_settings.LintSettings:
     base = lint_settings.load(path) if path else lint_settings.LintSettings()
     return base.merged(min_bandwidth=request.min_bandwidth, fail_on=request.fail_on,
                        probe=request.probe, source=request.source, band=request.band, rank=request.rank)
+
+
+def read_options(request: ScanRequest, settings: lint_settings.LintSettings) -> ReadOptions:
+    """The reader's options: -I folders, then the settings' include-dirs; --x-mega or the settings'."""
+    x_mega = request.x_mega if request.x_mega is not None else settings.x_mega
+    return ReadOptions(tuple(request.include_dirs) + tuple(settings.include_dirs), bool(x_mega))
 
 
 def band_request(request: ScanRequest, settings: lint_settings.LintSettings) -> BandRequest:
@@ -171,7 +179,7 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
     settings = settings_for(request)
     with timed.stage("read", f"reading {os.path.basename(request.netlist)}") as advance:
         circuit = read_netlist(request.netlist, request.params, progress=advance, lib_section=request.lib_section,
-                               unknown_params="record")
+                               unknown_params="record", options=read_options(request, settings))
     with timed.stage("operating point", "operating point"):
         op = operating_point(circuit, request.temp_c, request.op_file)
     with timed.stage("linearize", "small-signal network"):

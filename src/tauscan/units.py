@@ -59,6 +59,31 @@ def _parse_uncached(text: str) -> float | None:
     return float(f"{digits}e{int(exponent or 0) + shift}")
 
 
+#: Letters that may follow a number as a unit, with no scale suffix before them (``5V``,
+#: ``10ohm``, ``1e3Hz``); anything else that is not a scale suffix is reported.
+UNIT_LETTERS = frozenset(["v", "a", "s", "hz", "ohm", "ohms", "h", "db", "deg", "w", "sec"])
+
+
+def unknown_suffix(text: str) -> str | None:
+    """The letters after a number when they are neither a scale suffix (with a unit after it)
+    nor a unit alone: ``100x`` gives ``"x"``, ``10pF``, ``5V`` and ``1meg`` give None."""
+    match = _NUMBER.match(text)
+    if match is None:
+        return None
+    letters = match.group(2).lower()
+    if not letters or letters[0] in _SCALE or letters.startswith(("meg", "mil")) or letters in UNIT_LETTERS:
+        return None
+    return letters
+
+
+def parse_number_x_mega(text: str) -> float | None:
+    """:func:`parse_number` in the dialect that reads ``x`` as mega (``100x`` is 1e8)."""
+    match = _NUMBER.match(text)
+    if match is not None and match.group(2)[:1].lower() == "x":
+        return float(f"{match.group(1)}e6") if "e" not in match.group(1).lower() else float(match.group(1)) * 1e6
+    return parse_number(text)
+
+
 _PREFIXES = [
     (1e12, "T"),
     (1e9, "G"),

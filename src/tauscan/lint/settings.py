@@ -11,6 +11,8 @@ Keys (all optional)::
     source          = "vin"
     band            = "auto"     # the mid-band circuit: auto | dc | a frequency such as "10k"
     rank            = "transfer" # rank by transfer time constant, or "octc" (open-circuit)
+    include-dirs    = ["models"] # folders searched for .include / .lib files (from this file's folder)
+    x-mega          = false      # read an x after a number as mega (100x = 1e8)
     [states]                     # element-name glob = "short" | "open": pinned mid-band states
     [severity]                   # per-rule overrides: "miller-node" = "error"
     [waive]                      # capacitor-name glob = reason
@@ -35,7 +37,7 @@ except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib  # type: ignore[no-redef]
 
 KEYS = {"min-bandwidth", "miller-share", "miller-threshold", "fail-on", "probe", "source", "severity", "waive", "corners",
-        "band", "rank", "states"}
+        "band", "rank", "states", "include-dirs", "x-mega"}
 RANKS = ("transfer", "octc")
 
 
@@ -57,6 +59,9 @@ class LintSettings:
     #: element-name glob -> "short" | "open"
     states: dict = field(default_factory=dict)
     origin: str | None = None  # the file the settings came from
+    #: folders searched for include files (absolute: relative ones are taken from the settings' folder)
+    include_dirs: tuple = ()
+    x_mega: bool = False  # read an x after a number as mega
 
     def merged(self, **overrides) -> "LintSettings":
         return replace(self, **{k: v for k, v in overrides.items() if v is not None})
@@ -159,6 +164,18 @@ def from_mapping(data: dict, path: str, text: str = "") -> LintSettings:
             raise SettingsError('states must be a table of element-name glob = "short" or "open"', path,
                                 _line_of(text, "[states]") or _line_of(text, "states"))
         values["states"] = {k.lower(): v for k, v in table.items()}
+    if "include-dirs" in data:
+        dirs = data["include-dirs"]
+        if isinstance(dirs, str):
+            dirs = [dirs]
+        if not isinstance(dirs, list) or not all(isinstance(d, str) and d for d in dirs):
+            raise SettingsError("include-dirs must be a list of folder names", path, _line_of(text, "include-dirs"))
+        base = os.path.dirname(os.path.abspath(path))
+        values["include_dirs"] = tuple(os.path.normpath(os.path.join(base, os.path.expanduser(d))) for d in dirs)
+    if "x-mega" in data:
+        if not isinstance(data["x-mega"], bool):
+            raise SettingsError("x-mega must be true or false", path, _line_of(text, "x-mega"))
+        values["x_mega"] = data["x-mega"]
     if "corners" in data:
         values["corners"] = _corners(data["corners"], path, _line_of(text, "[corners]") or _line_of(text, "corners"))
     return LintSettings(**values)

@@ -35,6 +35,10 @@ MAX_DEVICE_CURRENT = 1.0
 FAMILY_ORDER = ("mos", "bjt", "diode")
 
 
+#: Largest DC system whose singular error names the unknowns involved (a dense SVD).
+SINGULAR_DETAIL_SIZE = 2000
+
+
 @dataclass(frozen=True)
 class SolverSettings:
     """Tolerances and limits; names and defaults as SPICE's ``.options``."""
@@ -184,10 +188,33 @@ class DCSolver:
         return x, states
 
     def _singular(self, a) -> CircuitError:
+        """The error of a singular DC system, naming the unknowns it leaves undetermined (the
+        nodes and the source branches of the matrix's null vector, for systems small enough to
+        decompose: up to :data:`SINGULAR_DETAIL_SIZE` unknowns)."""
+        involved = ""
+        if a.shape[0] <= SINGULAR_DETAIL_SIZE:
+            dense = a.toarray()
+            _, sigma, vt = np.linalg.svd(dense)
+            if sigma.size and sigma[-1] <= 1e-12 * max(sigma[0], 1.0):
+                v = np.abs(vt[-1])
+                names = self._unknown_names()
+                picked = [names[i] for i in np.flatnonzero(v > 0.1 * v.max())[:8].tolist()]
+                if picked:
+                    involved = ": it leaves undetermined " + ", ".join(picked)
         return CircuitError(
-            "the DC equations are singular (a loop of voltage sources, or a node driven only by current sources?)",
-            self.circuit.file,
+            "the DC equations are singular (a loop of voltage sources, or a node driven only by current sources?)"
+            + involved, self.circuit.file,
         )
+
+    def _unknown_names(self) -> list[str]:
+        """What each unknown of the DC system is (ground left out, as in the matrix): ``node x``,
+        or ``current of v1``."""
+        net = self.net
+        names = [f"node {n}" for n in net.nodes]
+        branches = sorted(net.branch_of.items(), key=lambda item: item[1])
+        names += [f"current of {name}" for name, _ in branches]
+        names += ["?"] * max(net.size - len(names), 0)
+        return names[1:]
 
     # -- strategies --------------------------------------------------------------------
     def solve(self) -> OperatingPoint:

@@ -101,43 +101,74 @@ def _waveform(kind: str, group: Group, card: Card, frame: Frame) -> Waveform:
 
 
 def source(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:
-    """V, I: two nodes, then ``[DC] value``, ``AC mag [phase]`` and a transient function."""
-    _need(pos, 2, card, "the two nodes")
+    """V, I: two nodes, then ``[DC] value``, ``AC [mag [phase]]`` and a transient function, in
+    the forms simulators accept: ``dc 1``, ``DC=VCM``, ``ac 1 0``, ``AC=0.5 90``, ``AC=1,0``,
+    ``SIN(0 1 1k)`` and ``SIN 0 1 1k``.  ``pos`` holds every field after the name, in order
+    (``key=value`` fields among them)."""
+    fields = pos
+    nodes = [f for f in fields[:2] if type(f) is not Param]
+    _need(nodes, 2, card, "the two nodes")
     spec = SourceSpec()
+    values: dict[str, float] = {}
     i = 2
-    while i < len(pos):
-        f = pos[i]
+    count = len(fields)
+
+    def value_at(k: int) -> bool:
+        return k < count and _valueish(fields[k])
+
+    def ac_from(k: int) -> int:
+        """The phase after an AC magnitude (at ``k``, if any); the index after them."""
+        if value_at(k):
+            spec.ac_phase = frame.value(fields[k], card)
+            k += 1
+        return k
+
+    while i < count:
+        f = fields[i]
+        if type(f) is Param:
+            if f.key == "dc":
+                spec.dc, spec.dc_given = frame.value(f.value, card), True
+                i += 1
+            elif f.key == "ac":
+                spec.ac_mag = frame.value(f.value, card)
+                i = ac_from(i + 1)
+            elif f.key in WAVEFORMS:
+                raise card.error(NetlistSyntaxError, f"{f.key.upper()} takes its arguments after it, not '='", f.offset)
+            else:
+                values[f.key] = frame.value(f.value, card)
+                i += 1
+            continue
         word = f.text.lower() if type(f) is Word else ""
-        if word == "dc" and i + 1 < len(pos) and _valueish(pos[i + 1]):
-            spec.dc = frame.value(pos[i + 1], card)
+        if word == "dc" and value_at(i + 1):
+            spec.dc = frame.value(fields[i + 1], card)
             spec.dc_given = True
             i += 2
         elif word == "ac":
             spec.ac_mag = 1.0
             i += 1
-            if i < len(pos) and _valueish(pos[i]):
-                spec.ac_mag = frame.value(pos[i], card)
-                i += 1
-                if i < len(pos) and _valueish(pos[i]):
-                    spec.ac_phase = frame.value(pos[i], card)
-                    i += 1
-        elif word in WAVEFORMS and i + 1 < len(pos) and type(pos[i + 1]) is Group:
-            spec.waveform = _waveform(word, pos[i + 1], card, frame)
+            if value_at(i):
+                spec.ac_mag = frame.value(fields[i], card)
+                i = ac_from(i + 1)
+        elif word in WAVEFORMS and i + 1 < count and type(fields[i + 1]) is Group:
+            spec.waveform = _waveform(word, fields[i + 1], card, frame)
             i += 2
-        elif word in WAVEFORMS:
-            raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments in parentheses", f.offset)
+        elif word in WAVEFORMS:  # the arguments without parentheses: the values that follow
+            k = i + 1
+            while value_at(k):
+                k += 1
+            if k == i + 1:
+                raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments", f.offset)
+            spec.waveform = Waveform(word, tuple(frame.value(a, card) for a in fields[i + 1 : k]))
+            i = k
         elif _valueish(f) and not spec.dc_given:
             spec.dc = frame.value(f, card)
             spec.dc_given = True
             i += 1
         else:
             raise card.error(NetlistSyntaxError, f"unexpected field {show(f)!r} in a source", f.offset)
-    values = _params(params, card, frame)
-    if "dc" in values:
-        spec.dc, spec.dc_given = values.pop("dc"), True
     if not spec.dc_given and spec.waveform is not None:
         spec.dc = spec.waveform.value_at_zero()
-    return Element(name, letter, _nodes(pos, 2, frame), spec.dc, None, values, card.file, card.line, spec, comment=card.comment)
+    return Element(name, letter, _nodes(nodes, 2, frame), spec.dc, None, values, card.file, card.line, spec, comment=card.comment)
 
 
 def voltage_controlled(letter: str, name: str, pos: list[Field], params: list[Field], card: Card, frame: Frame) -> Element:

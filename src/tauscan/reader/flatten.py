@@ -19,8 +19,9 @@ from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field, Group, Param, Word, card_fields, show
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
 from tauscan.reader.loader import Definition, Netlist
-from tauscan.reader.scope import ParamScope, field_value
-from tauscan.units import eng, parse_number
+from tauscan.reader.options import ReadOptions
+from tauscan.reader.scope import ParamScope, ReadContext, field_value
+from tauscan.units import eng, parse_number, unknown_suffix
 
 #: Numbers already met as plain words (text -> a finite float); bounded like parse_number's memo.
 _NUMBERS: dict[str, float] = {}
@@ -55,11 +56,13 @@ def _within(value: float, lo: float, hi: float) -> bool:
 
 
 def _plain_number(text: str) -> float | None:
-    """The finite number a word writes (lower case), remembered; None when it is not one."""
+    """The finite number a word writes (lower case), remembered; None when it is not one, or
+    when letters follow it that are no scale suffix and no unit (the caller's slower path reads
+    it in the netlist's dialect and says so)."""
     value = _NUMBERS.get(text)
     if value is None:
         value = parse_number(text)
-        if value is None or not math.isfinite(value):
+        if value is None or not math.isfinite(value) or (text[-1].isalpha() and unknown_suffix(text) is not None):
             return None
         if len(_NUMBERS) < _NUMBERS_MAX:
             _NUMBERS[text] = value
@@ -157,7 +160,8 @@ class Frame:
 
 
 class Flattener:
-    def __init__(self, netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error") -> None:
+    def __init__(self, netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error",
+                 options: ReadOptions | None = None) -> None:
         self.netlist = netlist
         self.global_nodes = {n for n in netlist.global_nodes if n not in GROUND_NAMES}
         top = netlist.top
@@ -174,7 +178,8 @@ class Flattener:
                     raise SettingsError(message, netlist.file)
                 self.circuit.unknown_params[key] = message
                 self.circuit.warnings.append(f"{message}: the override does not apply to this netlist")
-        self.top_scope = ParamScope(top.params, None, overrides or {})
+        self.context = ReadContext(x_mega=(options or ReadOptions()).x_mega)
+        self.top_scope = ParamScope(top.params, None, overrides or {}, self.context)
         self.circuit.global_nodes = set(self.global_nodes)
         self.circuit.warnings.extend(netlist.warnings)
         #: the name of every element taken so far (in the table or not)
@@ -279,6 +284,7 @@ class Flattener:
     def run(self) -> Circuit:
         top = self.netlist.top
         check_recursion(top)
+        self._check_unplaced(top)
         root = Frame(top, "", {}, self.top_scope, None, self, 0)
         self._settings(root)
         # models that the netlist itself defines at the top are kept even when no element uses
@@ -311,6 +317,7 @@ class Flattener:
                     stack.append((child, 0))
                     break
                 self._add(self._element(frame, name, fields, card), card, frame)
+        self.circuit.warnings.extend(self.context.warnings)
         if self.tiny_geometry:
             count, first, width, length = len(self.tiny_geometry), *self.tiny_geometry[0]
             self.circuit.warnings.append(
@@ -345,6 +352,43 @@ class Flattener:
                     spec.dc *= mult
                     spec.ac_mag *= mult
         element.params = params
+
+    def _check_unplaced(self, top: Definition) -> None:
+        """The subcircuits of the netlist's own files that no instance places are checked too:
+        a model their devices name and nobody defines is a warning (file:line), so a library
+        is not taken on trust.  A netlist of subcircuits only (a library) is an error that says
+        so, and names the first such model if there is one."""
+        placed = {id(top)}
+        stack = [top]
+        while stack:
+            for child, _, _ in _placed(stack.pop()):
+                if id(child) not in placed:
+                    placed.add(id(child))
+                    stack.append(child)
+        own = self.netlist.file
+        unplaced: list[Definition] = []
+        stack = list(top.subckts.values())
+        while stack:
+            d = stack.pop()
+            if d.card is not None and d.card.file == own and id(d) not in placed:
+                unplaced.append(d)
+            stack.extend(d.subckts.values())
+        unplaced.sort(key=lambda d: d.card.line)
+        problems: list[TauscanError] = []
+        for d in unplaced:
+            problems.extend(_undefined_models(d))
+        for exc in problems:
+            self.circuit.warnings.append(f"{exc.where()}: {exc.message}")
+        if not top.elements and top.subckts:
+            names = sorted(top.subckts)
+            shown = ", ".join(names[:6]) + (", ..." if len(names) > 6 else "")
+            if problems:
+                first = problems[0]
+                raise type(first)(f"{first.message}; and the netlist holds only subcircuit definitions ({shown})",
+                                  first.file, first.line, first.col, first.text)
+            raise HierarchyError(f"the netlist holds only subcircuit definitions ({len(names)}: {shown}) and places none: "
+                                 "it is a library; scan a testbench that instantiates one of them",
+                                 own, 1, 1, self.netlist.title)
 
     def _settings(self, root: Frame) -> None:
         net = self.netlist
@@ -566,8 +610,11 @@ class Flattener:
     def _element(self, frame: Frame, name: str, fields: list[Field], card: Card) -> Element:
         pos: list[Field] = []
         params: list[Field] = []
-        for f in fields[1:]:
-            (params if type(f) is Param else pos).append(f)
+        if name[0] in "vi":  # a source reads its fields in order: 'AC=0.5 90' is a magnitude and a phase
+            pos = fields[1:]
+        else:
+            for f in fields[1:]:
+                (params if type(f) is Param else pos).append(f)
         return RULES[name[0]](name[0], frame.element_name(name), pos, params, card, frame)
 
     def _add(self, element: Element, card: Card | DeviceLine, frame: Frame) -> None:
@@ -632,8 +679,9 @@ class Flattener:
         return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1, mult, solo)
 
     def _single_element(self, definition: Definition) -> bool:
-        """Whether a definition holds exactly one element, a semiconductor device (M, Q or D),
-        and nothing else: a device wrapper, as PDK libraries write them."""
+        """Whether a definition holds exactly one element, a semiconductor device (M, Q or D), and
+        nothing else: a device wrapper, as PDK libraries write them (a lone R or C keeps its own
+        name under the instance's)."""
         known = self.solo_definitions.get(id(definition))
         if known is None:
             items = definition.elements
@@ -651,12 +699,13 @@ class _InstanceValues:
     for PDK devices), else a parameter of the scope of the line (so ``w={w}`` passes the
     caller's ``w`` down), else a default of the subcircuit."""
 
-    __slots__ = ("given", "card", "outer", "inner", "values", "busy", "key")
+    __slots__ = ("given", "card", "outer", "inner", "values", "busy", "context")
 
     def __init__(self, given: dict[str, Param], card: Card, outer: ParamScope, inner: ParamScope,
                  values: dict[str, float]) -> None:
         self.given, self.card, self.outer, self.inner, self.values = given, card, outer, inner, values
         self.busy: list[str] = []
+        self.context = outer.context
 
     def run(self) -> None:
         for key in self.given:
@@ -688,6 +737,51 @@ class _InstanceValues:
             if name == self.busy[-1] or name not in self.inner.raw:
                 raise
             return self.inner.get(name)
+
+
+#: Where an element line names its model, by letter: the index of the model among the words
+#: after the name (a Q line may name a substrate node first).
+_MODEL_AT = {"m": (4,), "d": (2,), "q": (3, 4)}
+
+
+def _defines(definition: Definition, name: str) -> bool:
+    scope: Definition | None = definition
+    while scope is not None:
+        if name in scope.models or name in scope.bins:
+            return True
+        scope = scope.parent
+    return False
+
+
+def _undefined_models(definition: Definition) -> list[TauscanError]:
+    """Located errors for the device lines of a definition whose model nobody defines."""
+    out: list[TauscanError] = []
+    for item in definition.elements:
+        if type(item) is PlainRun:
+            lines = [item.device(k) for k in range(len(item.devices or ()))]
+        elif type(item) is DeviceLine:
+            lines = [item]
+        else:
+            lines = [item]
+        for line in lines:
+            if type(line) is DeviceLine:
+                card = line.card()
+                words = [Word(w, card.text.index(w)) for w in card.text.split()[1:]]
+                letter = "m"
+            else:
+                name, fields, card = line
+                letter = name[0]
+                words = [f for f in fields[1:] if type(f) is not Param]
+            spots = _MODEL_AT.get(letter)
+            if spots is None:
+                continue
+            candidates = [words[k] for k in spots if k < len(words) and type(words[k]) is Word]
+            if not candidates or any(_defines(definition, w.text.lower()) for w in candidates):
+                continue
+            model = candidates[-1] if letter == "q" and len(words) > 4 else candidates[0]
+            out.append(card.error(NetlistSyntaxError, f"model {model.text!r} is not defined (in subcircuit "
+                                  f"{definition.name!r}, which no instance places)", model.offset))
+    return out
 
 
 def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
@@ -731,8 +825,9 @@ def check_recursion(top: Definition) -> None:
             stack.pop()
 
 
-def flatten(netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error") -> Circuit:
+def flatten(netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error",
+            options: ReadOptions | None = None) -> Circuit:
     """Expand the hierarchy and evaluate every value; an override naming no global
     ``.param`` is an error (``unknown="error"``) or recorded in ``circuit.unknown_params``
     (``"record"``: a batch decides, as one netlist of several may not use a corner's parameter)."""
-    return Flattener(netlist, overrides, unknown).run()
+    return Flattener(netlist, overrides, unknown, options).run()

@@ -14,8 +14,9 @@ from dataclasses import dataclass, field
 
 from tauscan.circuit import ELEMENT_KINDS
 from tauscan.errors import HierarchyError, IncludeError, NetlistSyntaxError
-from tauscan.reader.fields import Field, Param, Quoted, Text, Word, assignments, card_fields
+from tauscan.reader.fields import Braced, Field, Param, Quoted, Text, Word, assignments, card_fields
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, logical_items, read_chunks
+from tauscan.reader.options import ReadOptions
 
 #: A '.param' card's directive (and the white space after it).
 _PARAM_CARD = re.compile(r"\s*\.params?\b\s*", re.I)
@@ -34,8 +35,15 @@ MAX_INCLUDE_DEPTH = 64
 #: Control cards that are recognised and skipped (analysis and output requests, etc.).
 SKIPPED_CARDS = frozenset(
     "op ac dc tran noise pz tf sens disto four print plot probe meas measure save "
-    "ic nodeset width title alter data enddata csparam func net save step".split()
+    "ic nodeset width data enddata csparam func net save step".split()
 )
+#: A control card's directive, read off its text (skipped cards are never parsed: their
+#: expressions, ``v(a,b)=0`` say, are another language).
+_DIRECTIVE = re.compile(r"\s*\.([A-Za-z_]\w*)")
+#: ``.temp 25`` and ``.temp=25``: the value's text after the directive.
+_TEMP_CARD = re.compile(r"\s*\.temp\b\s*=?\s*", re.I)
+#: A path written for Windows: a drive letter, or back slashes.
+_WINDOWS_PATH = re.compile(r"\A[A-Za-z]:[\\/]|\\")
 
 
 @dataclass
@@ -105,8 +113,12 @@ def _filename(f: Field) -> str | None:
 class Loader:
     """Reads a netlist and the files it includes into a :class:`Netlist`."""
 
-    def __init__(self, path: str, progress=None, lib_section: str | None = None) -> None:
+    def __init__(self, path: str, progress=None, lib_section: str | None = None,
+                 options: ReadOptions | None = None) -> None:
         self.path = path
+        self.options = options or ReadOptions()
+        #: the '.alter' card that ended the reading, if any
+        self.altered: Card | None = None
         self.progress = progress
         #: a corner's section: replaces the section of every ``.lib FILE SECTION`` card whose
         #: file has a section of that name
@@ -154,6 +166,16 @@ class Loader:
                 if text[:5].lower() == ".endl":
                     skip_section = None
                 continue
+            if self.altered is not None:
+                return
+            if text[:1] == ".":
+                head = _DIRECTIVE.match(text)
+                name = head.group(1).lower() if head else ""
+                if name in SKIPPED_CARDS:
+                    continue
+                if name in ("alter", "title", "temp"):
+                    self._special(card, name)
+                    continue
             if self.include_chain and len(self.include_chain) > 1 and text[:6].lower() == ".model":
                 head = _MODEL_HEAD.match(text)
                 if head is not None:  # a library's model card: parsed when an element uses it
@@ -223,10 +245,6 @@ class Loader:
             for f in args:
                 if type(f) is Word:
                     net.global_nodes.add(f.text.lower())
-        elif name == "temp":
-            if not args:
-                raise card.error(NetlistSyntaxError, "'.temp' needs a value", 0)
-            net.temp = (args[0], card)
         elif name in ("option", "options", "opt"):
             for f in args:
                 if type(f) is Param:
@@ -237,6 +255,28 @@ class Loader:
             pass
         else:
             net.warnings.append(f"{card.file}:{card.line}: '{directive}' is not understood and was skipped")
+
+    def _special(self, card: Card, name: str) -> None:
+        """'.alter' (the reading ends: the netlist is analysed as it stands before it), '.title'
+        and '.temp' (which may be written '.temp=25')."""
+        net = self.netlist
+        assert net is not None
+        text = card.text
+        if name == "alter":
+            self.altered = card
+            net.warnings.append(f"{card.file}:{card.line}: '.alter' and everything after it are ignored: the netlist is "
+                                "analysed as it stands before the first '.alter' (scan each alteration as its own netlist, "
+                                "or as a corner)")
+        elif name == "title":
+            net.title = text.strip()[len(".title"):].strip()
+        else:
+            match = _TEMP_CARD.match(text)
+            assert match is not None
+            value = text[match.end():].strip()
+            if not value:
+                raise card.error(NetlistSyntaxError, "'.temp' needs a value", 0)
+            first = value.split()[0]
+            net.temp = (Braced(first, match.end()), card)
 
     def _model(self, card: Card, name: str, fields: list[Field] | None) -> None:
         current = self.stack[-1]
@@ -294,16 +334,13 @@ class Loader:
 
     def _include(self, card: Card, name_field: Field, section: str | None) -> None:
         raw = name_field.text
-        base = os.path.dirname(card.file)
-        path = os.path.normpath(os.path.join(base, os.path.expanduser(raw)))
-        real = os.path.realpath(path)
         what = "'.lib'" if section else "'.include'"
+        path = self._find(card, name_field, what)
+        real = os.path.realpath(path)
         if section is None and any(r == real for r, _ in self.include_chain):
             raise card.error(IncludeError, f"{what} of {path} includes itself (an include cycle)", name_field.offset)
         if len(self.include_chain) >= MAX_INCLUDE_DEPTH:
             raise card.error(IncludeError, f"includes nested deeper than {MAX_INCLUDE_DEPTH}", name_field.offset)
-        if not os.path.isfile(path):
-            raise card.error(IncludeError, f"{what} file not found: {path}", name_field.offset)
         try:
             chunks = read_chunks(path)
         except IncludeError as exc:
@@ -327,6 +364,26 @@ class Loader:
         finally:
             self.include_chain.pop()
             self.lib_depth -= section is not None
+
+    def _find(self, card: Card, name_field: Field, what: str) -> str:
+        """The file an include names: beside the file that names it, else in the include
+        folders, in order.  Back slashes are read as folder separators; the message shows the
+        name as written."""
+        raw = name_field.text
+        written = os.path.expanduser(raw.replace("\\", "/") if "\\" in raw else raw)
+        folders = [os.path.dirname(card.file), *self.options.include_dirs]
+        for folder in folders:
+            path = os.path.normpath(os.path.join(folder, written))
+            if os.path.isfile(path):
+                return path
+        first = os.path.normpath(os.path.join(folders[0], written))
+        where = f"as {first}" if not self.options.include_dirs else \
+            f"as {first} and in {', '.join(self.options.include_dirs)}"
+        windows = " (a Windows path: give the folder that holds the file on this machine)" \
+            if _WINDOWS_PATH.search(raw) else ""
+        raise card.error(IncludeError, f"{what} file not found: {raw!r}, looked {where}{windows}; add its folder with "
+                         "-I DIR (or include-dirs in the settings), or give the operating point with --op and "
+                         "leave the file out", name_field.offset)
 
     @staticmethod
     def _section(cards: list, section: str, card: Card, name_field: Field, path: str) -> list:
@@ -370,7 +427,8 @@ def _section_names(cards: list) -> set[str]:
     return names
 
 
-def load(path: str, progress=None, lib_section: str | None = None) -> Netlist:
+def load(path: str, progress=None, lib_section: str | None = None, options: ReadOptions | None = None) -> Netlist:
     """Read ``path`` and its includes into a :class:`Netlist` (``progress(done, total)``:
-    bytes of the top file read so far; ``lib_section``: a corner's ``.lib`` section)."""
-    return Loader(path, progress, lib_section).load()
+    bytes of the top file read so far; ``lib_section``: a corner's ``.lib`` section;
+    ``options``: the include folders)."""
+    return Loader(path, progress, lib_section, options).load()

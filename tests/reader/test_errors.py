@@ -29,6 +29,17 @@ CASES = {
     "duplicate element": ("t\nR1 a b 1\nR1 b c 2\n", 3, "defined twice"),
     "unclosed brace": ("t\nR1 a b {1+2\n", 2, "unclosed"),
     "value out of range": ("t\nC1 a b 1e400\n", 2, "out of range"),
+    "undefined model on a Q line": ("t\nQ1 c b e nope\n", 2, "model 'nope' is not defined"),
+    "no bin fits": ("t\n.model nb.1 nmos level=1 vto=0.5 kp=1e-4 lmin=1u lmax=2u wmin=1u wmax=10u\n"
+                    "M1 d g 0 0 nb w=2u l=5u\n", 3, "no bin of model 'nb' fits L=5 um"),
+    ".param text that is no assignment": ("t\n.param 3 + x\nR1 a 0 1\n", 2, "expected name=value"),
+    "a library only": ("* lib\n.subckt s a\nR1 a 0 1\n.ends\n", 1, "only subcircuit definitions"),
+    "undefined model in an unplaced subcircuit of a library": (
+        "* lib\n.subckt s d g\nM1 d g 0 0 nope\n.ends\n", 3, "model 'nope' is not defined (in subcircuit 's'"),
+    "m= on an instance is not positive": ("t\n.subckt s a\nR1 a 0 1\n.ends\nX1 n s m=0\n", 5, "'m=' must be positive"),
+    "misspelt instance parameter": ("t\n.subckt s a width=1\nR1 a 0 {width}\n.ends\nX1 n s widht=2\n", 5, "did you mean 'width'"),
+    "a Windows include path": ("t\n.include 'C:\\models\\n.lib'\nR1 a 0 1\n", 2, "'C:\\\\models\\\\n.lib'"),
+    ".option scale not positive": ("t\n.option scale=0\nR1 a 0 1\n", 2, "must be positive"),
 }
 
 

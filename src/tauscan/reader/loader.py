@@ -157,6 +157,8 @@ class Loader:
     def _cards(self, cards: list[Card | PlainRun | DeviceLine]) -> None:
         skip_section: Card | None = None
         for card in cards:
+            if self.altered is not None:
+                return
             if type(card) is not Card:  # a run of plain lines, or a plain MOSFET line
                 if skip_section is None:
                     self.stack[-1].elements.append(card)
@@ -166,8 +168,6 @@ class Loader:
                 if text[:5].lower() == ".endl":
                     skip_section = None
                 continue
-            if self.altered is not None:
-                return
             if text[:1] == ".":
                 head = _DIRECTIVE.match(text)
                 name = head.group(1).lower() if head else ""

@@ -438,15 +438,17 @@ class _PrePass:
                     lo = k + 1  # the plain and MOSFET lines inside are dropped
                 continue
             # the lines before this one form a run (the last of them stands apart when this
-            # line continues it)
-            stretch = _Stretch(columns, devices, row, start, lo, k)
-            if stripped[0] == "+":
-                last = self._close(stretch)
-                if last is not None:  # a plain MOSFET line, continued: a card after all
-                    self.current = last.card()
-                    self.items.append(self.current)
-            else:
-                self._run(stretch, stretch.hi, stretch.devices)
+            # line continues it); none when this line directly follows another such line (a
+            # library's model cards: thousands of '+' lines in a row)
+            if lo < k or row[k + 1] > row[k]:
+                stretch = _Stretch(columns, devices, row, start, lo, k)
+                if stripped[0] == "+":
+                    last = self._close(stretch)
+                    if last is not None:  # a plain MOSFET line, continued: a card after all
+                        self.current = last.card()
+                        self.items.append(self.current)
+                else:
+                    self._run(stretch, stretch.hi, stretch.devices)
             lo = k + 1
             if head.startswith(".contr"):
                 self.in_control = True

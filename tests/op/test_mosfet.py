@@ -142,15 +142,19 @@ def test_short_effective_length_is_refused(write):
 
 
 def test_bsim_card_is_mapped_with_warnings(write):
-    c = read_netlist(write("bsim\nVdd vdd 0 1.8\nVg g 0 0.8\nRd vdd d 10k\nM1 d g 0 0 nb w=10u l=1u\n"
+    c = read_netlist(write("bsim\nVdd vdd 0 1.8\nVg g 0 0.8\nRd vdd d 1k\nM1 d g 0 0 nb w=10u l=1u\n"
                            ".model nb nmos level=54 vth0=0.5 u0=0.03 toxe=2n k1=0.4 lambda=0.05\n"))
     op = solve_dc(c)
     text = " ".join(op.warnings)
     assert "VTH0 used as VTO" in text and "U0" in text and "--op" in text
-    cox = EPS_OX / 2e-9
-    assert op.device("m1").current > 0
-    assert_allclose(op.device("m1").values["gm"] > 0, True)
-    assert cox > 0
+    # the level-1 square law with the mapped parameters (Razavi ch. 2): KP = U0 COX, VTO = VTH0,
+    # and a LAMBDA of 1 / (10 V/um * L) = 0.1/V for L = 1 um, not the card's BSIM LAMBDA
+    kp = 0.03 * EPS_OX / 2e-9
+    vds = op.voltage("d")
+    assert op.device("m1").region == "saturation"
+    ids = 0.5 * kp * 10 * (0.8 - 0.5) ** 2 * (1 + 0.1 * vds)
+    assert_allclose(op.device("m1").current, ids, rtol=1e-6)
+    assert_allclose(op.device("m1").values["gm"], kp * 10 * 0.3 * (1 + 0.1 * vds), rtol=1e-6)
 
 
 def test_bsim_card_without_level1_equivalents_is_refused(write):
@@ -163,3 +167,17 @@ def test_wrong_model_type(write):
     c = read_netlist(write("t\nVdd vdd 0 1.8\nM1 vdd vdd 0 0 qn\n.model qn npn\n"))
     with pytest.raises(CircuitError, match="not nmos or pmos"):
         solve_dc(c)
+
+
+def test_singular_dc_system_names_the_unknowns(write):
+    # a matrix whose null vector is known (numpy's SVD finds it): the second unknown is free
+    import scipy.sparse as sp
+
+    from tauscan.op.solver import DCSolver
+
+    solver = DCSolver(read_netlist(write("t\nV1 a 0 1\nR1 a b 1k\nR2 b 0 1k\n")), 27.0)
+    unknowns = solver._unknown_names()
+    assert unknowns == ["node a", "node b", "current of v1"]
+    a = sp.csc_matrix(np.diag([1.0, 0.0, 1.0]))
+    err = solver._singular(a)
+    assert err.message.endswith("it leaves undetermined node b")

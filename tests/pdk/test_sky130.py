@@ -94,3 +94,40 @@ def test_scan_reports_the_wrapped_device_parts(write, sky130_lib):
     names = {c["name"] for c in json.loads(result.stdout)["capacitors"]}
     assert {"xm1:cgs", "xm1:cgd", "cl"} <= names
     assert not any(".msky130" in n for n in names)
+
+
+@pytest.mark.parametrize("corner", ["tt", "ss", "ff"])
+def test_every_global_parameter_of_a_corner_evaluates(write, sky130_lib, corner):
+    # every function and form the library's parameter files use is understood: each of the
+    # corner's global .param values evaluates (statistical functions at their nominal value)
+    from tauscan.reader.flatten import Flattener
+    from tauscan.reader.loader import load
+
+    net = load(write(CS_STAGE.format(lib=sky130_lib, corner=corner)))
+    scope = Flattener(net).top_scope
+    names = list(net.top.params)
+    assert len(names) > 1000
+    values = [scope.get(name) for name in names]
+    assert all(v == v for v in values)  # finite numbers (evaluate() refuses anything else)
+
+
+def test_token_fast_path_agrees_with_the_grammar_on_the_library(sky130_lib):
+    # every card of the library's FET and parameter files that the token path takes reads the
+    # same as through the card grammar (grammar/netlist.lark), record types included
+    from tauscan.reader.fields import grammar_fields, token_fields
+    from tauscan.reader.lines import Card, logical_items, read_chunks
+
+    taken = 0
+    for name in ("continuous/models_fet.spice", "continuous/parameters_fet_tt.spice", "corners/tt/nonfet.spice"):
+        _, items = logical_items(read_chunks(str(sky130_lib.parent / name)), name, has_title=False)
+        for card in items:
+            if type(card) is not Card or "(" in card.text or "," in card.text:
+                continue
+            fast = token_fields(card.text)
+            if fast is None:
+                continue
+            kind, slow = grammar_fields(card)
+            types = [[(type(f), type(getattr(f, "value", None))) for f in fields] for fields in (fast[1], slow)]
+            assert fast == (kind, slow) and types[0] == types[1], card.text[:80]
+            taken += 1
+    assert taken > 500

@@ -3,7 +3,7 @@
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from tauscan.reader.fields import Param, fast_fields, grammar_fields
+from tauscan.reader.fields import Param, fast_fields, grammar_fields, token_fields
 from tauscan.reader.lines import Card
 
 from tests.conftest import examples
@@ -66,3 +66,57 @@ def test_fast_path_agrees_with_the_grammar(text):
 def test_lines_the_fast_path_refuses():
     for text in ["R1 a b {x}", "V1 a 0 pulse(0 1)", "R1 a b r = 1k", "R1 a b .param", "R1 a b 'x'"]:
         assert fast_fields(text) is None
+
+
+CARDS = [
+    ".param  l = 1 w = 1 nf = 1 ad = 0 nrd = {0.14/w} nrs = {0.14/w}",
+    ".subckt  sky_like d g s b  w=60u l=2u sa=0 mult=1 ad  = '11.33 * w'",
+    "Mdev  d g s b nmodel l = {l} w = {w} ad = {ad} nf = {nf}",
+    ".include \"../cells/x.spice\"",
+    ".ends sky_like",
+    "xm1 d g s b wrapper w=2 l=0.15 nf=2 ad='int(nf/2) * W/nf * 0.29' m=4",
+    ".lib \"lib.spice\" tt",
+    "R1 a b r = {x*2}",
+    ".param a = b",
+]
+
+card_word = st.one_of(word, st.builds(lambda w: "{" + w + "}", word), st.builds(lambda w: "'" + w + "'", word),
+                      st.builds(lambda w: '"' + w + '"', word), st.just("="))
+
+
+@st.composite
+def token_cards(draw):
+    head = draw(st.sampled_from([".param", ".subckt", ".model", ".include", ".lib", ".x1"])) if draw(st.booleans()) \
+        else draw(st.sampled_from("rcmqdxvile")) + draw(word)
+    parts = [head] + [draw(card_word) for _ in range(draw(st.integers(0, 9)))]
+    seps = [draw(sep) for _ in parts]
+    return "".join(p + s for p, s in zip(parts, seps)).rstrip()
+
+
+def _token_agree(text: str) -> bool:
+    fast = token_fields(text)
+    if fast is None:
+        return False  # the grammar decides
+    try:
+        kind, slow = grammar_fields(Card(text, "f", 1))
+    except Exception as exc:  # the grammar refuses what the fast path took: a defect
+        raise AssertionError(f"{text!r}: the fast path read it, the grammar says {exc}") from None
+    assert fast[0] == kind and _typed(fast[1]) == _typed(slow), text
+    return True
+
+
+def test_listed_cards_take_the_token_path_and_agree():
+    for text in CARDS:
+        assert _token_agree(text), text
+
+
+@settings(max_examples=examples(600), deadline=None)
+@given(token_cards())
+def test_token_path_agrees_with_the_grammar(text):
+    _token_agree(text)
+
+
+def test_token_path_refuses_what_it_cannot_tell():
+    for text in ["R1 a b x=", ".param a = = 1", "R1 a {b{c}}", "R1 a b .param", ".5x a b",
+                 "R1 a b x=\"s\""]:
+        assert token_fields(text) is None, text

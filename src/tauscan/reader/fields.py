@@ -194,12 +194,88 @@ def grammar_fields(card: Card) -> tuple[str, list[Field]]:
     return tree.data, _TO_FIELDS.transform(tree)
 
 
+#: One token of a card without parentheses or commas (see :func:`token_fields`): a braced
+#: expression, a quoted one, a string, '=', or a run of word characters.
+_CARD_TOKEN = re.compile(r"""[ \t]*(?:(\{[^{}]*\})|('[^']*')|("[^"]*")|(=)|([^\s=(){}'",]+))""")
+_DIRECTIVE_WORD = re.compile(r"\.[A-Za-z_][A-Za-z0-9_]*\Z")
+
+
+def token_fields(text: str) -> tuple[str, list[Field]] | None:
+    """``(kind, fields)`` of a card holding words, ``key = value`` pairs (white space around
+    '=' allowed), braced and quoted expressions and strings, but no parentheses or commas:
+    what the grammar gives for it, found by one regular expression (a PDK library's '.param',
+    '.subckt' and device lines).  None when the grammar must decide; a test holds the two
+    together."""
+    tokens = []
+    pos, end = 0, len(text)
+    match = _CARD_TOKEN.match
+    while pos < end:
+        m = match(text, pos)
+        if m is None:
+            if text[pos:].strip():
+                return None
+            break
+        tokens.append((m.lastindex, m.group(m.lastindex), m.start(m.lastindex)))
+        pos = m.end()
+    if not tokens or tokens[0][0] != 5:
+        return None
+    first = tokens[0][1]
+    if first[0] == ".":
+        if _DIRECTIVE_WORD.match(first) is None:
+            return None
+        kind = "control"
+    elif first[0].isalpha():
+        kind = "element"
+    else:
+        return None
+    out: list[Field] = [Word(first, tokens[0][2])]
+    i, count = 1, len(tokens)
+    while i < count:
+        tag, tok, at = tokens[i]
+        if tag == 5:
+            if tok[0] == "." and _directive_like(tok):
+                return None
+            if i + 1 < count and tokens[i + 1][0] == 4:  # key = value
+                if i + 2 >= count:
+                    return None
+                vtag, vtok, vat = tokens[i + 2]
+                if vtag == 5:
+                    if vtok[0] == "." and _directive_like(vtok):
+                        return None
+                    value: Field = Word(vtok, vat)
+                elif vtag == 1:
+                    value = Braced(vtok[1:-1], vat + 1)
+                elif vtag == 2:
+                    value = Quoted(vtok[1:-1], vat + 1)
+                else:
+                    return None
+                out.append(Param(tok.lower(), value, at))
+                i += 3
+                continue
+            out.append(Word(tok, at))
+        elif tag == 1:
+            out.append(Braced(tok[1:-1], at + 1))
+        elif tag == 2:
+            out.append(Quoted(tok[1:-1], at + 1))
+        elif tag == 3:
+            out.append(Text(tok[1:-1], at + 1))
+        else:  # '=' with no key before it
+            return None
+        i += 1
+    return kind, out
+
+
 def card_fields(card: Card) -> tuple[str, list[Field]]:
-    """Fields of a card, by the fast path where it applies, else by the grammar."""
-    if card.text.lstrip()[:1] != ".":
-        fast = fast_fields(card.text)
+    """Fields of a card, by a fast path where one applies, else by the grammar."""
+    text = card.text
+    if text.lstrip()[:1] != ".":
+        fast = fast_fields(text)
         if fast is not None:
             return "element", fast
+    if "(" not in text and ")" not in text and "," not in text:
+        found = token_fields(text)
+        if found is not None:
+            return found
     return grammar_fields(card)
 
 

@@ -37,6 +37,10 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
     p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
+    p.add_argument("--columns", metavar="LIST",
+                   help="the capacitor table's columns, comma-separated (default: as many as the width holds, "
+                        "the essential first): capacitor, nodes, c, gain, class, miller, r, tau, share, signal-gain, "
+                        "t, t-share, pole-share, f-without, f-cascoded")
     _add_batch_options(p)
     p.set_defaults(handler=cmd_scan)
 
@@ -226,15 +230,18 @@ def _split(results: list) -> tuple[list, list]:
 def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report.output import write_bytes, write_text
 
+    from tauscan.report import scan_table
+
+    columns = scan_table.parse_columns(args.columns)  # (checked before anything runs)
     runs, failures = _split(_run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout))
     if not runs:
         return EXIT_ERROR
     top = args.top or None
     fmt = args.format
     if fmt == "table" and args.output is None:
-        from tauscan.report import scan_table
-
-        scan_table.print_to_terminal(runs, top)
+        scan_table.print_to_terminal(runs, top, columns)
+    elif fmt == "table":
+        write_text(scan_table.render(runs, top, columns=columns), args.output, protect=tuple(args.netlist))
     else:
         write_text(_render("scan", fmt, runs, top, failures=failures), args.output, protect=tuple(args.netlist))
     if args.plot:

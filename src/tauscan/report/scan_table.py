@@ -40,7 +40,7 @@ def signed_pct(x: float) -> str:
     return "0.0%" if text in ("-0.0%", "+0.0%") else text
 
 
-def summary(run) -> Table:
+def summary(run, width: int | None = None) -> Table:
     a = run.analysis
     grid = Table.grid(padding=(0, 2))
     grid.add_column(style="bold")
@@ -69,7 +69,7 @@ def summary(run) -> Table:
         grid.add_row(what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}")
     if a.probe and a.probe_reason:
         grid.add_row("probe", f"{a.probe} ({a.probe_reason})")
-    fix = fix_first_line(a, run.lint.waived)
+    fix = fix_first_line(a, run.lint.waived, name_limit(width))
     if fix:
         grid.add_row(Text("fix first", style="bold"), fix)
     for p in a.unstable_poles:
@@ -78,13 +78,13 @@ def summary(run) -> Table:
     return grid
 
 
-def fix_first_line(a, waived=()) -> str:
+def fix_first_line(a, waived=(), limit: int = 0) -> str:
     """One line naming the capacitor whose removal raises the estimate most, with the figure
-    (waived capacitors are accepted by design and left out)."""
+    (waived capacitors are accepted by design and left out; ``limit``: the longest name shown)."""
     fix = a.fix_first(waived) if not a.unstable_poles else None
     if not fix or not fix.get("hz_without"):
         return ""
-    line = (f"{fix['capacitor']}: without it the {fix['estimate']} estimate rises from {eng(fix['hz'], 'Hz')} "
+    line = (f"{elide_middle(fix['capacitor'], limit)}: without it the {fix['estimate']} estimate rises from {eng(fix['hz'], 'Hz')} "
             f"to {eng(fix['hz_without'], 'Hz')}")
     if fix.get("octc_hz_if_cascoded") and a.octc_hz:
         line += (f"; cascoded (gain across it cut to -1) the open-circuit estimate goes from {eng(a.octc_hz, 'Hz')} "
@@ -118,6 +118,63 @@ def _trust(a) -> str:
 #: a column's share of the width beyond its text: rich's padding and the rule between columns
 _COLUMN_EDGE = 3
 
+#: ``--columns`` keys of the capacitor table -> its headers ('#' always stands first)
+CAPACITOR_COLUMNS = {
+    "capacitor": "capacitor", "nodes": "nodes", "c": "C", "gain": "gain", "class": "class",
+    "miller": "Miller x", "r": "R seen", "tau": "tau", "share": "share", "signal-gain": "signal gain",
+    "t": "T", "t-share": "T share", "pole-share": "pole share", "f-without": "f w/o it", "f-cascoded": "f cascoded",
+}
+
+
+def parse_columns(text: str | None) -> tuple[str, ...] | None:
+    """``--columns`` (comma-separated keys of :data:`CAPACITOR_COLUMNS`) -> the headers, in
+    table order; None for the default choice by width.  Raises SettingsError for an unknown key."""
+    if text is None:
+        return None
+    from tauscan.errors import SettingsError, did_you_mean
+
+    keys = [k.strip().lower() for k in text.split(",") if k.strip()]
+    if not keys:
+        raise SettingsError("--columns needs one or more column names (" + ", ".join(CAPACITOR_COLUMNS) + ")")
+    for key in keys:
+        if key not in CAPACITOR_COLUMNS:
+            raise SettingsError(f"--columns: no column {key!r}{did_you_mean(key, CAPACITOR_COLUMNS)} "
+                                f"(columns: {', '.join(CAPACITOR_COLUMNS)})")
+    order = list(CAPACITOR_COLUMNS)
+    return tuple(CAPACITOR_COLUMNS[k] for k in sorted(set(keys), key=order.index))
+
+
+def elide_middle(text: str, limit: int) -> str:
+    """``text`` shortened to ``limit`` characters by dropping its middle (``x1.x2...m7:cgd``):
+    the last hierarchy levels kept whole where they fit (the device and its part), then as
+    much of the start as the room leaves."""
+    if limit <= 0 or len(text) <= limit:
+        return text
+    room = limit - 3
+    parts = text.split(".")
+    tail = parts[-1]
+    if len(parts) > 1 and len(tail) <= room - 4:
+        k = len(parts) - 2
+        while k > 0 and len(tail) + 1 + len(parts[k]) <= room * 2 // 3:
+            tail = parts[k] + "." + tail
+            k -= 1
+        head, j = "", 0
+        while j <= k and len(head) + len(parts[j]) + (1 if head else 0) + len(tail) <= room:
+            head += ("." if head else "") + parts[j]
+            j += 1
+        if not head:
+            head = parts[0][: room - len(tail)]
+        return f"{head}...{tail}"
+    back = room - room // 3
+    return text[: room - back] + "..." + text[len(text) - back:]
+
+
+def name_limit(width: int | None) -> int:
+    """How long a name or node pair may be in a table at ``width`` (0: no limit)."""
+    if width is None:
+        return 0
+    return max(12, min(40, (width - 60) // 2))
+
 
 def _fitted(columns: list[tuple[str, str, int]], rows: list[list], width: int | None) -> list[int]:
     """The indices of the columns that fit ``width``, most important first.
@@ -126,25 +183,40 @@ def _fitted(columns: list[tuple[str, str, int]], rows: list[list], width: int | 
     column goes whole or not at all, so that a number is never split from its unit."""
     if width is None:
         return list(range(len(columns)))
-    need = []
-    for j, (header, _, _) in enumerate(columns):
-        cells = [len(str(r[j])) for r in rows]
-        need.append(max([len(header), *cells]) + _COLUMN_EDGE)
+    need = _needs(columns, rows)
     order = sorted(range(len(columns)), key=lambda j: columns[j][2])
     kept, used = [], 4  # the table's own edges
     for j in order:
-        if used + need[j] <= width or not kept:
-            kept.append(j)
-            used += need[j]
+        if used + need[j] > width and kept:
+            break  # a less important column never takes the place of a more important one
+        kept.append(j)
+        used += need[j]
     return sorted(kept)
 
 
+def _needs(columns: list[tuple[str, str, int]], rows: list[list]) -> list[int]:
+    """Characters each column takes: its widest cell or header, and its edge."""
+    return [max([len(header), *(len(str(r[j])) for r in rows)]) + _COLUMN_EDGE
+            for j, (header, _, _) in enumerate(columns)]
+
+
+def _spare(columns: list[tuple[str, str, int]], rows: list[list], keep: list[int], width: int | None) -> int:
+    """Characters left over at ``width`` by the kept columns."""
+    if width is None:
+        return 0
+    need = _needs(columns, rows)
+    return max(0, width - 4 - sum(need[j] for j in keep))
+
+
 def _table(title: str, columns: list[tuple[str, str, int]], rows: list[list], width: int | None,
-           no_wrap: tuple[str, ...] = ()) -> Table:
-    keep = _fitted(columns, rows, width)
+           chosen: tuple[str, ...] | None = None) -> Table:
+    if chosen is not None:  # --columns: those, whatever the width
+        keep = [j for j, (name, _, _) in enumerate(columns) if name == "#" or name in chosen]
+    else:
+        keep = _fitted(columns, rows, width)
     dropped = len(columns) - len(keep)
-    if dropped:
-        title += f"  [{dropped} column{'s' if dropped > 1 else ''} left out at this width: JSON has them all]"
+    if dropped and chosen is None:
+        title += f"  [{dropped} column{'s' if dropped > 1 else ''} left out at this width (--columns picks them): JSON has them all]"
     t = Table(title=title, title_justify="left", header_style="bold", box=box.MINIMAL_HEAVY_HEAD)
     for j in keep:
         name, justify, _ = columns[j]
@@ -154,7 +226,7 @@ def _table(title: str, columns: list[tuple[str, str, int]], rows: list[list], wi
     return t
 
 
-def capacitor_table(run, top: int | None, width: int | None = None) -> Table:
+def capacitor_table(run, top: int | None, width: int | None = None, chosen: tuple[str, ...] | None = None) -> Table:
     a = run.analysis
     on_path = a.on_path_capacitors
     caps = on_path[:top] if top else on_path
@@ -162,35 +234,54 @@ def capacitor_table(run, top: int | None, width: int | None = None) -> Table:
     where = " on the signal path" if a.rank == "transfer" else ""
     transfer = a.sum_transfer_tau_s is not None
     # (header, justify, priority): the essential columns first, the what-if ones last
-    columns = [("#", "right", 0), ("capacitor", "left", 0), ("input -> other", "left", 1), ("C", "right", 1),
+    columns = [("#", "right", 4), ("capacitor", "left", 0), ("nodes", "left", 1), ("C", "right", 1),
                ("gain", "right", 2), ("class", "left", 2), ("Miller x", "right", 7), ("R seen", "right", 8),
                ("tau", "right", 3 if not transfer else 5), ("share", "right", 3 if not transfer else 5)]
     if transfer:
         columns += [("signal gain", "right", 4), ("T", "right", 3), ("T share", "right", 3)]
     columns += [("pole share", "right", 9), ("f w/o it", "right", 6), ("f cascoded", "right", 10)]
     waived = run.lint.waived
-    rows = []
-    for k, c in enumerate(caps, start=1):
-        name = c.name + (" (waived)" if c.name in waived else "")
-        row = [str(k), name, f"{c.node_in} -> {c.node_out}", eng(c.farads, "F"), _num(c.gain),
-               Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),
-               eng(c.tau_s, "s"), _pct(c.share)]
-        if transfer:
-            row += [_num(c.signal_gain), eng(c.transfer_tau_s, "s"), _pct(c.transfer_share)]
-        row += [_pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
-        rows.append(row)
-    return _table(f"Capacitors{where} by {by} ({len(caps)} of {len(on_path)})", columns, rows, width)
+
+    def rows_at(limit: int) -> list[list]:
+        rows = []
+        for k, c in enumerate(caps, start=1):
+            name = elide_middle(c.name, limit) + (" (waived)" if c.name in waived else "")
+            nodes = f"{elide_middle(c.node_in, limit // 2)} -> {elide_middle(c.node_out, limit // 2)}" \
+                if limit and len(c.node_in) + len(c.node_out) + 4 > limit else f"{c.node_in} -> {c.node_out}"
+            row = [str(k), name, nodes, eng(c.farads, "F"), _num(c.gain),
+                   Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),
+                   eng(c.tau_s, "s"), _pct(c.share)]
+            if transfer:
+                row += [_num(c.signal_gain), eng(c.transfer_tau_s, "s"), _pct(c.transfer_share)]
+            row += [_pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
+            rows.append(row)
+        return rows
+
+    title = f"Capacitors{where} by {by} ({len(caps)} of {len(on_path)})"
+    limit = name_limit(width)
+    rows = rows_at(limit)
+    if limit and chosen is None:  # the width the chosen columns leave goes to the names
+        spare = _spare(columns, rows, _fitted(columns, rows, width), width)
+        if spare:
+            rows = rows_at(limit + spare)
+    return _table(title, columns, rows, width, chosen)
 
 
-def off_path_block(run, top: int | None) -> list:
-    """Capacitors the drive or the probe does not reach: listed, never ranked with the rest."""
+def off_path_block(run, top: int | None, width: int | None = None) -> list:
+    """Capacitors the drive or the probe does not reach: listed apart, never ranked with the
+    rest (a small table, so that no number is split from its unit)."""
     off = run.analysis.off_path_capacitors
     if not off:
         return []
     shown = off[:top] if top else off
-    names = ", ".join(f"{c.name} ({eng(c.tau_s, 's')} open-circuit)" for c in shown)
-    more = f" and {len(off) - len(shown)} more" if len(off) > len(shown) else ""
-    return [Text(f"Off the signal path ({len(off)}; transfer time constant 0): {names}{more}", style="dim")]
+    more = f", {len(off) - len(shown)} more in JSON" if len(off) > len(shown) else ""
+    limit = name_limit(width)
+    rows = [[elide_middle(c.name, limit), f"{elide_middle(c.node_in, limit // 2)} -> {elide_middle(c.node_out, limit // 2)}",
+             eng(c.farads, "F"), eng(c.tau_s, "s")] for c in shown]
+    columns = [("capacitor", "left", 0), ("nodes", "left", 1), ("C", "right", 1), ("open-circuit tau", "right", 0)]
+    table = _table(f"Off the signal path ({len(off)}{more}; transfer time constant 0)", columns, rows, width)
+    table.style = "dim"
+    return [table]
 
 
 def node_table(run, top: int | None, width: int | None = None) -> Table:
@@ -204,7 +295,7 @@ def node_table(run, top: int | None, width: int | None = None) -> Table:
     rows = []
     for n in nodes:
         flag = Text("Miller-dominated", style="bold magenta") if n.miller_dominated else Text("-")
-        row = [n.node, eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share)]
+        row = [elide_middle(n.node, name_limit(width)), eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share)]
         if transfer:
             row += [eng(n.transfer_tau_s, "s"), _pct(n.transfer_share), _pct(n.signal_miller_share),
                     "signal" if n.on_signal_path else "off"]
@@ -233,32 +324,32 @@ def findings_block(run) -> list:
     return out
 
 
-def renderables(run, top: int | None = 20, width: int | None = None) -> Group:
+def renderables(run, top: int | None = 20, width: int | None = None, columns: tuple[str, ...] | None = None) -> Group:
     a = run.analysis
     head = Text.assemble((a.title or "", "bold"), f"  {run.request.netlist}")
     if run.request.corner:
         head.append(f"  corner {run.request.corner}", style="bold")
     if a.source:
         head.append(f"  source {a.source}" + (f", probe {a.probe}" if a.probe else ""))
-    parts = [head, summary(run), *band_block(run), capacitor_table(run, top, width), *off_path_block(run, top),
+    parts = [head, summary(run, width), *band_block(run), capacitor_table(run, top, width, columns), *off_path_block(run, top, width),
              node_table(run, top, width)]
     parts.extend(findings_block(run))
     parts.append(Text("First-order estimates from device models: they point where to look, not a substitute for simulation.", style="dim"))
     return Group(*parts)
 
 
-def render(runs: list, top: int | None = 20, width: int = 140) -> str:
+def render(runs: list, top: int | None = 20, width: int = 140, columns: tuple[str, ...] | None = None) -> str:
     console = text_console(width)
     for run in runs:
-        console.print(renderables(run, top, width))
+        console.print(renderables(run, top, width, columns))
     return console.export_text()
 
 
-def print_to_terminal(runs: list, top: int | None = 20) -> None:
+def print_to_terminal(runs: list, top: int | None = 20, columns: tuple[str, ...] | None = None) -> None:
     from rich.console import Console
 
     console = Console()
     if not console.is_terminal:
         console = Console(width=160)
     for run in runs:
-        console.print(renderables(run, top, console.width))
+        console.print(renderables(run, top, console.width, columns))

@@ -7,9 +7,13 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from dataclasses import dataclass
+
 from tauscan.analysis import AnalysisSettings, analyze
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
+from tauscan.lint.gate import LintResult
 from tauscan.op import OperatingPoint, operating_point
 from tauscan.reader import read_netlist
 
@@ -26,12 +30,60 @@ def bias(circuit: Circuit, temp_c: float | None = None, op_file: str | None = No
     return operating_point(circuit, temp_c, op_file)
 
 
+@dataclass(frozen=True)
+class ScanResult:
+    """What :func:`scan` gives: the analysis (whose figures read as attributes of the result:
+    ``result.octc_hz``, ``result.poles``, ...), the lint stage's findings and waivers, and the
+    circuit and operating point they came from."""
+
+    analysis: Analysis
+    lint: LintResult
+    circuit: Circuit
+    op: OperatingPoint
+
+    def __getattr__(self, name: str):
+        return getattr(self.analysis, name)
+
+    @property
+    def findings(self) -> list:
+        return self.lint.findings
+
+    @property
+    def waived(self) -> dict[str, str]:
+        """Capacitor name -> the reason of the waiver that covers it (settings or inline)."""
+        return dict(self.lint.waived)
+
+    def capacitors_frame(self, waived: Mapping[str, str] | None = None):
+        """The ranked capacitors as a pandas DataFrame, with the waiver of each, as the JSON and
+        CSV reports show it (``waived`` replaces the lint stage's waivers)."""
+        return self.analysis.capacitors_frame(self.lint.waived if waived is None else waived)
+
+    def nodes_frame(self):
+        return self.analysis.nodes_frame()
+
+
 def scan(path: str, *, probe: str | None = None, source: str | None = None, params: dict[str, float] | None = None,
-         temp_c: float | None = None, op_file: str | None = None, settings: AnalysisSettings | None = None) -> Analysis:
-    """Read, bias and analyse a netlist; the result has ``capacitors_frame()`` and ``nodes_frame()``."""
-    circuit = read(path, params)
+         temp_c: float | None = None, op_file: str | None = None, settings: AnalysisSettings | None = None,
+         config: str | None = None) -> ScanResult:
+    """Read, bias, analyse and lint a netlist, with the settings file found from its folder (or
+    ``config``) as the command line does; the result has ``capacitors_frame()`` (waivers
+    included) and ``nodes_frame()``.  ``settings`` replaces the analysis settings the settings
+    file would give."""
+    from tauscan import pipeline
+    from tauscan.lint.gate import run_rules
+
+    request = pipeline.ScanRequest(path, params=dict(params or {}), temp_c=temp_c, op_file=op_file, probe=probe,
+                                   source=source, config=config)
+    if settings is None:
+        run = pipeline.scan(request)
+        return ScanResult(run.analysis, run.lint, run.circuit, run.op)
+    lint_settings = pipeline.settings_for(request)
+    circuit = read_netlist(path, params, options=pipeline.read_options(request, lint_settings))
     op = bias(circuit, temp_c, op_file)
-    return analyze(op, probe=probe, source=source, settings=settings)
+    analysis = analyze(op, probe=probe or lint_settings.probe, source=source or lint_settings.source, settings=settings)
+    analysis.warnings.extend(circuit.warnings)
+    lint = run_rules(analysis, circuit, op, lint_settings, (probe or lint_settings.probe) is not None)
+    return ScanResult(analysis, lint, circuit, op)
 
 
-__all__ = ["read", "bias", "scan", "Analysis", "AnalysisSettings"]
+__all__ = ["read", "bias", "scan", "ScanResult", "Analysis", "AnalysisSettings"]

@@ -109,6 +109,9 @@ def eng(value: float | None, unit: str = "", digits: int = 3) -> str:
     if value == 0:
         return f"0 {unit}".rstrip()
     magnitude = abs(value)
+    if unit == "Hz" and magnitude < 0.9995:
+        # below 1 Hz in plain decimals: 'mHz' beside 'MHz' is too easily misread
+        return f"{value:.{digits}g} Hz"
     for scale, prefix in _PREFIXES:
         if magnitude >= scale * 0.9995:
             break

@@ -61,3 +61,11 @@ def test_engineering_notation():
     assert eng(None, "V") == "-"
     assert eng(float("nan"), "V") == "-"
     assert eng(2e-6) == "2u"
+
+
+def test_frequencies_below_one_hertz_are_plain_decimals():
+    # 'mHz' beside 'MHz' is too easily misread: below 1 Hz in decimals (issue on report units)
+    from tauscan.units import eng
+
+    assert [eng(v, "Hz") for v in (0.5, 0.00123, 2.5e6, 1.0)] == ["0.5 Hz", "0.00123 Hz", "2.5 MHz", "1 Hz"]
+    assert eng(5e-3, "s") == "5 ms"  # other units keep their prefixes

@@ -119,7 +119,7 @@ def _trust(a) -> str:
 _COLUMN_EDGE = 3
 
 #: ``--columns`` keys of the capacitor table -> its headers ('#' always stands first)
-CAPACITOR_COLUMNS = {
+TABLE_COLUMNS = {
     "capacitor": "capacitor", "nodes": "nodes", "c": "C", "gain": "gain", "class": "class",
     "miller": "Miller x", "r": "R seen", "tau": "tau", "share": "share", "signal-gain": "signal gain",
     "t": "T", "t-share": "T share", "pole-share": "pole share", "f-without": "f w/o it", "f-cascoded": "f cascoded",
@@ -127,7 +127,7 @@ CAPACITOR_COLUMNS = {
 
 
 def parse_columns(text: str | None) -> tuple[str, ...] | None:
-    """``--columns`` (comma-separated keys of :data:`CAPACITOR_COLUMNS`) -> the headers, in
+    """``--columns`` (comma-separated keys of :data:`TABLE_COLUMNS`) -> the headers, in
     table order; None for the default choice by width.  Raises SettingsError for an unknown key."""
     if text is None:
         return None
@@ -135,13 +135,13 @@ def parse_columns(text: str | None) -> tuple[str, ...] | None:
 
     keys = [k.strip().lower() for k in text.split(",") if k.strip()]
     if not keys:
-        raise SettingsError("--columns needs one or more column names (" + ", ".join(CAPACITOR_COLUMNS) + ")")
+        raise SettingsError("--columns needs one or more column names (" + ", ".join(TABLE_COLUMNS) + ")")
     for key in keys:
-        if key not in CAPACITOR_COLUMNS:
-            raise SettingsError(f"--columns: no column {key!r}{did_you_mean(key, CAPACITOR_COLUMNS)} "
-                                f"(columns: {', '.join(CAPACITOR_COLUMNS)})")
-    order = list(CAPACITOR_COLUMNS)
-    return tuple(CAPACITOR_COLUMNS[k] for k in sorted(set(keys), key=order.index))
+        if key not in TABLE_COLUMNS:
+            raise SettingsError(f"--columns: no column {key!r}{did_you_mean(key, TABLE_COLUMNS)} "
+                                f"(columns: {', '.join(TABLE_COLUMNS)})")
+    order = list(TABLE_COLUMNS)
+    return tuple(TABLE_COLUMNS[k] for k in sorted(set(keys), key=order.index))
 
 
 def elide_middle(text: str, limit: int) -> str:

@@ -187,8 +187,41 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
 
 
 def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0):
+    """Scan every request (see :func:`_run_batch`).  A netlist scanned at several corners
+    has its transfer fixed once: its first run chooses the probe (when neither the command
+    line nor the settings name one), and every other corner of it uses that probe, so that no
+    corner changes what is measured and ``(worst)`` compares the same transfer."""
+    from tauscan.pipeline import ScanFailure
+
+    groups: dict[str, list[int]] = {}
+    for k, r in enumerate(requests):
+        groups.setdefault(r.netlist, []).append(k)
+    leaders = [ks[0] for ks in groups.values() if len(ks) > 1 and requests[ks[0]].probe is None]
+    if not leaders:
+        return _run_batch(requests, jobs, cluster, timeout)
+    results: list = [None] * len(requests)
+    for k, result in zip(leaders, _run_batch([requests[k] for k in leaders], jobs, cluster, timeout)):
+        results[k] = result
+    rest = []
+    for ks in groups.values():
+        lead = results[ks[0]]
+        for k in ks:
+            if results[k] is not None:
+                continue
+            request = requests[k]
+            if lead is not None and not isinstance(lead, ScanFailure) and lead.analysis.probe:
+                request = dataclasses.replace(request, pinned_probe=lead.analysis.probe)
+            rest.append((k, request))
+    for (k, _), result in zip(rest, _run_batch([r for _, r in rest], jobs, cluster, timeout)):
+        results[k] = result
+    return results
+
+
+def _run_batch(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0):
     """Scan every request: on a Dask cluster when one is named, else in worker processes
     when there are several and jobs allow."""
+    if not requests:
+        return []
     from tauscan.pipeline import scan, scan_in_worker_or_failure, scan_or_failure
     from tauscan.report.progress import StageProgress
 

@@ -47,6 +47,9 @@ class ScanRequest:
     lib_section: str | None = None  # the corner's .lib section, if it selects one
     include_dirs: tuple[str, ...] = ()  # -I folders, searched before the settings' include-dirs
     x_mega: bool | None = None  # --x-mega; None: the settings' choice
+    #: the probe the first run of this netlist chose, kept for its other corners (not "given":
+    #: the rules judge as they did on that first run)
+    pinned_probe: str | None = None
 
 
 @dataclass
@@ -185,11 +188,13 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
     with timed.stage("linearize", "small-signal network"):
         ss = linearize(op)
     with timed.stage("analyze", "small-signal analysis"):
-        analysis = analyze_network(ss, op, settings.probe, settings.source,
+        analysis = analyze_network(ss, op, settings.probe or request.pinned_probe, settings.source,
                                    AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response,
                                                     curve_points=request.curve_points,
                                                     band=band_request(request, settings), rank=settings.rank))
         analysis.warnings.extend(circuit.warnings)
+        if settings.probe is None and request.pinned_probe:
+            analysis.probe_reason = "chosen on the first run of this netlist and kept for every corner"
     with timed.stage("lint", "lint rules"):
         lint = run_rules(analysis, circuit, op, settings, settings.probe is not None)
     return ScanRun(request, circuit, op, analysis, lint, settings, timed.seconds, dict(circuit.unknown_params))

@@ -221,3 +221,26 @@ def test_op_report_gives_vth_vdsat_margin_and_gm_over_id():
     # one quantity per line: a value never splits from its unit
     for line in table.splitlines():
         assert not line.rstrip().endswith(("=", " fF", "│ fF"))
+
+
+PROBE_FLIP = """two outputs whose larger response depends on a parameter (our own)
+.param ga=2 gb=1
+vin in 0 dc 0 ac 1
+ea a 0 in 0 {ga}
+ra a outa 1k
+ca outa 0 1p
+eb b 0 in 0 {gb}
+rb b outb 1k
+cb outb 0 2p
+"""
+
+
+def test_a_corner_does_not_change_the_probe(tmp_path):
+    path = tmp_path / "flip.sp"
+    path.write_text(PROBE_FLIP)
+    alone = json.loads(run_cli("scan", str(path), "--corner", "two:ga=1,gb=3", "--format", "json").stdout)
+    assert alone["probe"] == "b"  # alone, that corner would choose the other output
+    both = json.loads(run_cli("scan", str(path), "--corner", "one:ga=2,gb=1", "--corner", "two:ga=1,gb=3",
+                              "--format", "json").stdout)
+    assert [(r["corner"], r["probe"]) for r in both["runs"]] == [("one", "a"), ("two", "a")]
+    assert "kept for every corner" in both["runs"][1]["probe_reason"]

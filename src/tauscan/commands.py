@@ -181,8 +181,8 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
                                         corner=corner.name if corner else None,
                                         lib_section=corner.lib if corner else None,
                                         include_dirs=tuple(args.include_dirs), x_mega=args.x_mega))
-    if getattr(args, "plot", None) and requests:  # the plot draws the first run's transfer
-        requests[0] = dataclasses.replace(requests[0], curve_points=PLOT_POINTS)
+    if getattr(args, "plot", None):  # the plot draws every run's transfer
+        requests = [dataclasses.replace(r, curve_points=PLOT_POINTS) for r in requests]
     return requests
 
 
@@ -266,6 +266,10 @@ def cmd_scan(args: argparse.Namespace) -> int:
     from tauscan.report import scan_table
 
     columns = scan_table.parse_columns(args.columns)  # (checked before anything runs)
+    if args.plot:
+        from tauscan.report import plot
+
+        plot.check(args.plot)
     runs, failures = _split(_run_all(_requests(args, args.netlist), args.jobs, args.cluster, args.cluster_timeout))
     if not runs:
         return EXIT_ERROR
@@ -280,8 +284,7 @@ def cmd_scan(args: argparse.Namespace) -> int:
     if args.plot:
         from tauscan.report import plot
 
-        freqs, mags = runs[0].response_curve()
-        write_bytes(plot.render(runs[0], freqs, mags, args.plot), args.plot, protect=tuple(args.netlist))
+        write_bytes(plot.render_all(runs, args.plot, top), args.plot, protect=tuple(args.netlist))
     return EXIT_ERROR if failures else 0
 
 

@@ -108,3 +108,35 @@ def test_table_to_a_pipe_is_plain_text():
     assert result.returncode == 0
     assert "Capacitors on the signal path by transfer time constant" in result.stdout and "\x1b[" not in result.stdout
     assert result.stderr == ""  # progress is shown only when stderr is a terminal
+
+
+def test_plot_draws_every_corner_with_labelled_marks(tmp_path):
+    svg = tmp_path / "p.svg"
+    result = run_cli("scan", SENSOR, "--corner", "slow:vdd=1.6", "--corner", "fast:vdd=2.0", "--top", "3",
+                     "--plot", str(svg), "--format", "json")
+    assert result.returncode == 0, result.stderr
+    text = svg.read_text()
+    runs = json.loads(result.stdout)["runs"]
+    for run in runs:  # one row per corner, each mark labelled with its value
+        assert f"corner {run['corner']}" in text
+        from tauscan.units import eng
+
+        assert f"-3 dB (exact) {eng(run['summary']['f3db_hz'], 'Hz')}" in text
+        assert f"dominant pole {eng(run['summary']['dominant_pole_hz'], 'Hz')}" in text
+    assert "(top 3)" in text and "poles (" in text
+
+
+def test_plot_extension_is_checked_before_anything_runs(tmp_path):
+    broken = tmp_path / "broken.sp"
+    broken.write_text("t\nR1 a b\n")  # a netlist error that a run would report
+    result = run_cli("scan", str(broken), "--plot", str(tmp_path / "p.pdf"))
+    assert result.returncode == 2 and "--plot writes .png or .svg" in result.stderr
+
+
+def test_the_plots_sweep_spans_every_pole():
+    from tauscan.pipeline import ScanRequest, scan
+
+    run = scan(ScanRequest(str(SAMPLES / "two_stage_amp.sp"), curve_points=200))
+    freqs, _ = run.response_curve()
+    pole_hz = [abs(p) / (2 * 3.141592653589793) for p in run.analysis.poles if p != 0]
+    assert pole_hz and freqs[0] <= min(pole_hz) and max(pole_hz) <= freqs[-1]

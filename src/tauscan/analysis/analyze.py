@@ -373,8 +373,13 @@ def _transfer(work, wfactors: Factors, b: np.ndarray | None, probe: Probe | None
             curve_factors, curve_b, curve_probe = base_factors, drive.b, passband_found.probe
         else:
             curve_factors, curve_b, curve_probe = wfactors, b, probe
-        freqs, mags = response_curve(curve_factors, curve_b, curve_probe, min(marks) / 1e3, max(marks) * 1e3,
-                                     settings.curve_points)
+        # the sweep spans every pole found (within 20 decades of the figures), with margin
+        pole_hz = [abs(complex(p)) / (2 * math.pi) for p in found.values if np.isfinite(p) and p != 0]
+        lo, hi = min(marks), max(marks)
+        span = [f for f in pole_hz if lo * 1e-10 <= f <= hi * 1e10]
+        f_lo = min([lo / 1e3, *(f / 10 for f in span)])
+        f_hi = max([hi * 1e3, *(f * 10 for f in span)])
+        freqs, mags = response_curve(curve_factors, curve_b, curve_probe, f_lo, f_hi, settings.curve_points)
         out.curve = (freqs.tolist(), mags.tolist())
     return out
 

@@ -33,7 +33,8 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     _add_analysis_options(p)
     p.add_argument("--format", choices=formats.choices("scan"), default="table",
                    help="table (the terminal report; default), json (every figure), csv (one row per "
-                        "capacitor), markdown (for a review), sarif (findings for code scanning)")
+                        "capacitor), markdown (for a review), sarif (findings for code scanning), html (one "
+                        "self-contained file: sortable tables, the plot inline, for a CI artifact)")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     p.add_argument("--plot", metavar="FILE", help="also draw the shares and the response to FILE (.png or .svg)")
     p.add_argument("--top", type=_positive_int, default=20, metavar="N", help="rows per table (default 20; 0 for all)")
@@ -50,7 +51,8 @@ def add_subcommands(sub, add_common: Callable[..., None]) -> None:
     _add_analysis_options(p)
     p.add_argument("--fail-on", choices=["note", "warning", "error", "never"], help="exit 1 on findings at or above this (default warning)")
     p.add_argument("--format", choices=formats.choices("check"), default="table",
-                   help="table (one line per netlist and the findings; default), json, sarif")
+                   help="table (one line per netlist and the findings; default), json, sarif, html (one "
+                        "self-contained file for a CI artifact)")
     p.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE (atomically) instead of standard output")
     _add_batch_options(p)
     p.set_defaults(handler=cmd_check)
@@ -181,7 +183,7 @@ def _requests(args: argparse.Namespace, netlists: list[str]):
                                         corner=corner.name if corner else None,
                                         lib_section=corner.lib if corner else None,
                                         include_dirs=tuple(args.include_dirs), x_mega=args.x_mega))
-    if getattr(args, "plot", None):  # the plot draws every run's transfer
+    if getattr(args, "plot", None) or getattr(args, "format", None) == "html":  # the plot draws every run's transfer
         requests = [dataclasses.replace(r, curve_points=PLOT_POINTS) for r in requests]
     return requests
 

@@ -34,6 +34,8 @@ FORMATS: dict[str, Format] = {f.name: f for f in (
     Format("markdown", "tauscan.report.scan_markdown", _runs_top, frozenset({"scan"})),
     Format("sarif", "tauscan.report.sarif", lambda m, runs, _top, _code, failures: m.render(runs, failures),
            frozenset({"scan", "check"})),
+    Format("html", "tauscan.report.scan_html", lambda m, runs, top, code, failures: m.render(runs, top, code, failures),
+           frozenset({"scan", "check"})),
 )}
 #: the check table (the gate's own layout) stands in for the scan table under ``check``
 CHECK_TABLE = Format("table", "tauscan.report.check_table", lambda m, runs, _top, code, _failures: m.render(runs, code),

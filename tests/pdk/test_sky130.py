@@ -36,7 +36,12 @@ def _bins(lib, base: str) -> dict[str, tuple[float, float, float, float]]:
 
 
 def test_cs_stage_reads_flattens_and_biases(write, sky130_lib):
-    c = read_netlist(write(CS_STAGE.format(lib=sky130_lib, corner="tt")))
+    import time
+
+    path = write(CS_STAGE.format(lib=sky130_lib, corner="tt"))
+    start = time.perf_counter()
+    c = read_netlist(path)
+    print(f"read the tt corner of SKY130 under a small testbench in {time.perf_counter() - start:.3f} s")
     m = c.element("xm1")  # the wrapper's device, under the instance's name
     assert m.kind == "m" and m.nodes == ("d", "g", "0", "0")
     # w=2 l=0.15 in microns by the library's '.option scale=1.0u'

@@ -291,7 +291,7 @@ def cmd_scan(args: argparse.Namespace) -> int:
 
 
 def _render(command: str, fmt: str, runs: list, top: int | None, exit_code: int | None = None,
-            failures: list | None = None) -> str:
+            failures: list | None = None) -> str | bytes:
     from tauscan.gcpause import paused_gc
 
     with paused_gc():  # a record per capacitor: many objects, no cycles

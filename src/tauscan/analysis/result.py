@@ -6,6 +6,8 @@ Plain records with a JSON form and pandas views for notebooks and scripts.
 from __future__ import annotations
 
 import math
+from itertools import repeat
+from operator import add, attrgetter
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
@@ -93,6 +95,32 @@ class CapacitorResult(_Compact):
         }
 
 
+#: The JSON record of a capacitor: (JSON key, attribute), in the order of
+#: :meth:`CapacitorResult.to_json` (a test holds the two to each other).
+_RECORD = (("name", "name"), ("node_in", "node_in"), ("node_out", "node_out"), ("farads", "farads"),
+           ("class", "klass"), ("gain", "gain"), ("factor_in", "factor_in"), ("factor_out", "factor_out"),
+           ("ohms", "ohms"), ("tau_s", "tau_s"), ("share", "share"), ("pole_share", "pole_share"),
+           ("octc_hz_if_removed", "octc_hz_if_removed"), ("octc_hz_if_cascoded", "octc_hz_if_cascoded"),
+           ("tau_in_s", "part_in_s"), ("tau_out_s", "part_out_s"), ("transfer_tau_s", "transfer_tau_s"),
+           ("transfer_share", "transfer_share"), ("signal_gain", "signal_gain"),
+           ("on_signal_path", "on_signal_path"), ("file", "file"), ("line", "line"))
+_RECORD_KEYS = tuple(k for k, _ in _RECORD) + ("waived",)
+_RECORD_VALUES = attrgetter(*(a for _, a in _RECORD))
+
+
+def capacitor_records(caps: list[CapacitorResult], waived: Mapping[str, str]) -> list[dict]:
+    """:meth:`CapacitorResult.to_json` of every capacitor, made a record at a time by C loops
+    (an extracted netlist has 10^5 of them).  Non-finite numbers stay as they are: the JSON
+    writer (orjson) writes them as null, as ``to_json`` does."""
+    keys = _RECORD_KEYS
+    reason = waived.get
+    if not waived:
+        rows = map(add, map(_RECORD_VALUES, caps), repeat((None,)))
+    else:
+        rows = map(add, map(_RECORD_VALUES, caps), zip(map(reason, map(attrgetter("name"), caps))))
+    return list(map(dict, map(zip, repeat(keys), rows)))
+
+
 @dataclass(slots=True)
 class NodeResult(_Compact):
     node: str
@@ -119,6 +147,17 @@ class NodeResult(_Compact):
             "signal_miller_share": _finite(self.signal_miller_share),
             "on_signal_path": bool(self.on_signal_path),
         }
+
+
+_NODE_KEYS = ("node", "tau_s", "share", "miller_share", "miller_dominated", "transfer_tau_s", "transfer_share",
+              "signal_miller_share", "on_signal_path")
+_NODE_VALUES = attrgetter(*_NODE_KEYS)
+
+
+def node_records(nodes: list[NodeResult]) -> list[dict]:
+    """:meth:`NodeResult.to_json` of every node, by C loops (see :func:`capacitor_records`)."""
+    keys = _NODE_KEYS
+    return list(map(dict, map(zip, repeat(keys), map(_NODE_VALUES, nodes))))
 
 
 @dataclass
@@ -254,8 +293,8 @@ class Analysis:
             "rank": self.rank,
             "band": self.band.to_json() if self.band is not None else None,
             "summary": self.summary_json(waived),
-            "capacitors": [c.to_json(waived.get(c.name)) for c in self.capacitors],
-            "nodes": [n.to_json() for n in self.nodes],
+            "capacitors": capacitor_records(self.capacitors, waived),
+            "nodes": node_records(self.nodes),
             "poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.poles],
             "unstable_poles": [{"hz": abs(p) / (2 * math.pi), "real": p.real, "imag": p.imag} for p in self.unstable_poles],
             "warnings": list(self.warnings),

@@ -14,11 +14,21 @@ import tempfile
 from tauscan.errors import SettingsError
 
 
-def write_text(text: str, path: str | None, *, protect: tuple[str, ...] = ()) -> None:
+def write_text(text: str | bytes, path: str | None, *, protect: tuple[str, ...] = ()) -> None:
     """Write ``text`` to ``path`` atomically, or to stdout when ``path`` is None or '-'.
+    ``text`` may be UTF-8 bytes already (the JSON report of a large netlist: hundreds of MB,
+    never copied into a str).
 
     ``protect`` lists input files (the netlists) that must never be overwritten.
     """
+    if isinstance(text, bytes):
+        if path is None or path == "-":
+            sys.stdout.flush()
+            sys.stdout.buffer.write(text if text.endswith(b"\n") or not text else text + b"\n")
+            sys.stdout.buffer.flush()
+            return
+        write_bytes(text, path, protect=protect)
+        return
     if path is None or path == "-":
         sys.stdout.write(text)
         if text and not text.endswith("\n"):

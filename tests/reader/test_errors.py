@@ -39,7 +39,11 @@ CASES = {
     "m= on an instance is not positive": ("t\n.subckt s a\nR1 a 0 1\n.ends\nX1 n s m=0\n", 5, "'m=' must be positive"),
     "misspelt instance parameter": ("t\n.subckt s a width=1\nR1 a 0 {width}\n.ends\nX1 n s widht=2\n", 5, "did you mean 'width'"),
     "a Windows include path": ("t\n.include 'C:\\models\\n.lib'\nR1 a 0 1\n", 2, "'C:\\\\models\\\\n.lib'"),
-    ".option scale not positive": ("t\n.option scale=0\nR1 a 0 1\n", 2, "must be positive"),
+    ".option scale not positive": ("t\n.option scale=0\nR1 a 0 1\n", 2, "must be a positive number"),
+    ".option scale not a number": ("t\n.option scale=big\nR1 a 0 1\n", 2, "must be a positive number, not 'big'"),
+    ".option scale without a value": ("t\n.option post scale\nR1 a 0 1\n", 2, "'.option scale' needs a value"),
+    "a value after the AC phase": ("t\nV1 a 0 AC=1 2 3\nR1 a 0 1\n", 2, "after the AC magnitude and phase"),
+    "an empty include name": ("t\n.include \"\"\nR1 a 0 1\n", 2, "needs a file name"),
 }
 
 

@@ -116,11 +116,15 @@ def source(letter: str, name: str, pos: list[Field], params: list[Field], card: 
     def value_at(k: int) -> bool:
         return k < count and _valueish(fields[k])
 
+    ac_done = False  # an AC magnitude and phase were read: a bare value after them is refused
+
     def ac_from(k: int) -> int:
         """The phase after an AC magnitude (at ``k``, if any); the index after them."""
+        nonlocal ac_done
         if value_at(k):
             spec.ac_phase = frame.value(fields[k], card)
             k += 1
+            ac_done = True
         return k
 
     while i < count:
@@ -160,10 +164,13 @@ def source(letter: str, name: str, pos: list[Field], params: list[Field], card: 
                 raise card.error(NetlistSyntaxError, f"{word.upper()} needs its arguments", f.offset)
             spec.waveform = Waveform(word, tuple(frame.value(a, card) for a in fields[i + 1 : k]))
             i = k
-        elif _valueish(f) and not spec.dc_given:
+        elif _valueish(f) and not spec.dc_given and not ac_done:
             spec.dc = frame.value(f, card)
             spec.dc_given = True
             i += 1
+        elif _valueish(f) and ac_done:
+            raise card.error(NetlistSyntaxError, f"a value {show(f)!r} after the AC magnitude and phase: write the DC "
+                             "value first, or as DC=", f.offset)
         else:
             raise card.error(NetlistSyntaxError, f"unexpected field {show(f)!r} in a source", f.offset)
     if not spec.dc_given and spec.waveform is not None:

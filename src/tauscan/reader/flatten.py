@@ -405,10 +405,10 @@ class Flattener:
                 except TauscanError:
                     self.circuit.options[key] = show(f)
         scale = self.circuit.options.get("scale")
-        if isinstance(scale, float):
-            if not scale > 0:
-                f, card = net.options["scale"]
-                raise card.error(NetlistSyntaxError, "'.option scale' must be positive", f.offset)
+        if scale is not None:
+            f, card = net.options["scale"]  # (the loader refuses a bare 'scale')
+            if not isinstance(scale, float) or not scale > 0:
+                raise card.error(NetlistSyntaxError, f"'.option scale' must be a positive number, not {show(f)!r}", f.offset)
             self.scale = scale
 
     def _plain_run(self, frame: Frame, run: PlainRun) -> None:

@@ -250,6 +250,8 @@ class Loader:
                 if type(f) is Param:
                     net.options[f.key] = (f.value, card)
                 elif type(f) is Word:
+                    if f.text.lower() == "scale":
+                        raise card.error(NetlistSyntaxError, "'.option scale' needs a value (scale=1u)", f.offset)
                     net.options[f.text.lower()] = "on"
         elif name in SKIPPED_CARDS:
             pass
@@ -370,6 +372,8 @@ class Loader:
         folders, in order.  Back slashes are read as folder separators; the message shows the
         name as written."""
         raw = name_field.text
+        if not raw.strip():
+            raise card.error(IncludeError, f"{what} needs a file name, not an empty one", name_field.offset)
         written = os.path.expanduser(raw.replace("\\", "/") if "\\" in raw else raw)
         folders = [os.path.dirname(card.file), *self.options.include_dirs]
         for folder in folders:

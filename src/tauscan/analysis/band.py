@@ -278,7 +278,9 @@ def passband(ss, factors: Factors, b: np.ndarray, probe: Probe | None, start_hz:
     resp.known.update({fk: complex(hk) for fk, hk in zip(freqs, h)})
     kp = int(np.argmax(mag))
     top = float(mag[kp])
-    if 0 < kp < len(freqs) - 1 and freqs[kp - 1] > 0:
+    # (a maximum within 1e-6 of its neighbours is a flat band, not a peak: refining it would
+    # cost a factorization for nothing, and nudge the level off |H(0)|/sqrt(2))
+    if 0 < kp < len(freqs) - 1 and freqs[kp - 1] > 0 and top - min(mag[kp - 1], mag[kp + 1]) > 1e-6 * top:
         top = max(top, _peak(resp, freqs[kp - 1: kp + 2], mag[kp - 1: kp + 2], 6 if resp.dense else 1))
     level = top / math.sqrt(2)
     refine = _refine if resp.dense else _refine_sloped

@@ -209,6 +209,9 @@ def _refine_sloped(resp: Response, target: float, fa: float, fb: float, va: floa
     if settled:
         return answer
     tol = 1e-6
+    # an end already within the tolerance is the answer (a point the pass-band search solved)
+    if abs(ga) < tol or abs(gb) < tol:
+        return fa if abs(ga) <= abs(gb) else fb
     # the newest point and its slope: the end nearer the crossing to begin with
     near_a = abs(ga) <= abs(gb)
     x, gx, fx = (a, ga, fa) if near_a else (b, gb, fb)

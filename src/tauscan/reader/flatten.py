@@ -15,6 +15,7 @@ from operator import attrgetter, itemgetter, methodcaller
 
 from tauscan.circuit import GROUND, Circuit, Element, Model
 from tauscan.errors import ExpressionError, HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
+from tauscan.reader.checks import check_recursion, placed, undefined_models
 from tauscan.reader.elements import RULES, check_passive_value
 from tauscan.reader.fields import Field, Group, Param, Word, card_fields, show
 from tauscan.reader.lines import Card, DeviceLine, PlainRun, PlainValueCard
@@ -358,25 +359,25 @@ class Flattener:
         a model their devices name and nobody defines is a warning (file:line), so a library
         is not taken on trust.  A netlist of subcircuits only (a library) is an error that says
         so, and names the first such model if there is one."""
-        placed = {id(top)}
+        reached = {id(top)}
         stack = [top]
         while stack:
-            for child, _, _ in _placed(stack.pop()):
-                if id(child) not in placed:
-                    placed.add(id(child))
+            for child, _, _ in placed(stack.pop()):
+                if id(child) not in reached:
+                    reached.add(id(child))
                     stack.append(child)
         own = self.netlist.file
         unplaced: list[Definition] = []
         stack = list(top.subckts.values())
         while stack:
             d = stack.pop()
-            if d.card is not None and d.card.file == own and id(d) not in placed:
+            if d.card is not None and d.card.file == own and id(d) not in reached:
                 unplaced.append(d)
             stack.extend(d.subckts.values())
         unplaced.sort(key=lambda d: d.card.line)
         problems: list[TauscanError] = []
         for d in unplaced:
-            problems.extend(_undefined_models(d))
+            problems.extend(undefined_models(d))
         for exc in problems:
             self.circuit.warnings.append(f"{exc.where()}: {exc.message}")
         if not top.elements and top.subckts:
@@ -737,92 +738,6 @@ class _InstanceValues:
             if name == self.busy[-1] or name not in self.inner.raw:
                 raise
             return self.inner.get(name)
-
-
-#: Where an element line names its model, by letter: the index of the model among the words
-#: after the name (a Q line may name a substrate node first).
-_MODEL_AT = {"m": (4,), "d": (2,), "q": (3, 4)}
-
-
-def _defines(definition: Definition, name: str) -> bool:
-    scope: Definition | None = definition
-    while scope is not None:
-        if name in scope.models or name in scope.bins:
-            return True
-        scope = scope.parent
-    return False
-
-
-def _undefined_models(definition: Definition) -> list[TauscanError]:
-    """Located errors for the device lines of a definition whose model nobody defines."""
-    out: list[TauscanError] = []
-    for item in definition.elements:
-        if type(item) is PlainRun:
-            lines = [item.device(k) for k in range(len(item.devices or ()))]
-        elif type(item) is DeviceLine:
-            lines = [item]
-        else:
-            lines = [item]
-        for line in lines:
-            if type(line) is DeviceLine:
-                card = line.card()
-                words = [Word(w, card.text.index(w)) for w in card.text.split()[1:]]
-                letter = "m"
-            else:
-                name, fields, card = line
-                letter = name[0]
-                words = [f for f in fields[1:] if type(f) is not Param]
-            spots = _MODEL_AT.get(letter)
-            if spots is None:
-                continue
-            candidates = [words[k] for k in spots if k < len(words) and type(words[k]) is Word]
-            if not candidates or any(_defines(definition, w.text.lower()) for w in candidates):
-                continue
-            model = candidates[-1] if letter == "q" and len(words) > 4 else candidates[0]
-            out.append(card.error(NetlistSyntaxError, f"model {model.text!r} is not defined (in subcircuit "
-                                  f"{definition.name!r}, which no instance places)", model.offset))
-    return out
-
-
-def _placed(definition: Definition) -> list[tuple[Definition, Card, int]]:
-    """The definitions that ``definition``'s instance lines place (unknown names skipped)."""
-    out = []
-    for item in definition.elements:
-        if type(item) is not tuple or item[0][0] != "x":
-            continue
-        name, fields, card = item
-        pos = [f for f in fields[1:] if type(f) is not Param]
-        if pos and type(pos[-1]) is Word:
-            target = definition.find_subckt(pos[-1].text.lower())
-            if target is not None:
-                out.append((target, card, pos[-1].offset))
-    return out
-
-
-def check_recursion(top: Definition) -> None:
-    """Raise when a subcircuit places itself, directly or through others (reachable from the top)."""
-    state: dict[int, int] = {}  # id -> 1 on the path, 2 done
-    path: list[Definition] = [top]
-    stack = [(top, iter(_placed(top)))]
-    state[id(top)] = 1
-    while stack:
-        definition, children = stack[-1]
-        for child, card, offset in children:
-            mark = state.get(id(child))
-            if mark == 1:
-                names = [d.name for d in path[path.index(child):]] + [child.name]
-                raise card.error(
-                    HierarchyError, "subcircuit instantiates itself: " + " -> ".join(names), offset
-                )
-            if mark is None:
-                state[id(child)] = 1
-                path.append(child)
-                stack.append((child, iter(_placed(child))))
-                break
-        else:
-            state[id(definition)] = 2
-            path.pop()
-            stack.pop()
 
 
 def flatten(netlist: Netlist, overrides: dict[str, float] | None = None, unknown: str = "error",

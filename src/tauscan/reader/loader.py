@@ -210,7 +210,6 @@ class Loader:
     def _control(self, card: Card, directive: str, args: list[Field]) -> None:
         net = self.netlist
         assert net is not None
-        current = self.stack[-1]
         name = directive[1:]
         if name == "subckt":
             self._subckt(card, args)
@@ -335,7 +334,6 @@ class Loader:
         self.stack.append(definition)
 
     def _include(self, card: Card, name_field: Field, section: str | None) -> None:
-        raw = name_field.text
         what = "'.lib'" if section else "'.include'"
         path = self._find(card, name_field, what)
         real = os.path.realpath(path)

@@ -27,11 +27,11 @@ def check(path: str) -> str:
     fmt = path.rsplit(".", 1)[-1].lower() if "." in path else ""
     if fmt not in FORMATS:
         raise SettingsError(f"--plot writes .png or .svg files, not {path!r}")
-    try:
-        import matplotlib  # noqa: F401
-    except ImportError:
+    import importlib.util
+
+    if importlib.util.find_spec("matplotlib") is None:
         raise SettingsError("--plot needs matplotlib: pip install -e '.[plot]' in a checkout of tauscan "
-                            "(pip install 'tauscan[plot]' otherwise)") from None
+                            "(pip install 'tauscan[plot]' otherwise)")
     return fmt
 
 

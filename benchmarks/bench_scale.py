@@ -48,7 +48,7 @@ def _child_scan(path: str, band: str = "auto") -> dict:
     peak = _peak_mb()
     t = time.perf_counter()
     with paused_gc():
-        text = scan_json.render([run])
+        text = scan_json.render_bytes([run])
     json_s = time.perf_counter() - t
     return {"times": times, "import": imported, "total": total, "peak_mb": peak, "json_s": json_s,
             "json_mb": len(text) / 1e6, "table_chars": len(table), "elements": len(run.circuit.elements),

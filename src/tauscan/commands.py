@@ -295,6 +295,10 @@ def _render(command: str, fmt: str, runs: list, top: int | None, exit_code: int 
     from tauscan.gcpause import paused_gc
 
     with paused_gc():  # a record per capacitor: many objects, no cycles
+        if fmt == "json":  # written as the bytes it is made of
+            from tauscan.report import scan_json
+
+            return scan_json.render_bytes(runs, exit_code, failures)
         return formats.render(command, fmt, runs, top, exit_code, failures)
 
 

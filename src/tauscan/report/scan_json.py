@@ -35,7 +35,13 @@ def _dumps(data: dict, size: int) -> bytes:
     return orjson.dumps(data, option=option)
 
 
-def render(runs: list, exit_code: int | None = None, failures: list | None = None) -> bytes:
+def render(runs: list, exit_code: int | None = None, failures: list | None = None) -> str:
+    """The report as text (see :func:`render_bytes`, which the command line writes as it is)."""
+    return render_bytes(runs, exit_code, failures).decode("utf-8")
+
+
+def render_bytes(runs: list, exit_code: int | None = None, failures: list | None = None) -> bytes:
+    """The report as UTF-8 bytes: at 10^6 lines it is hundreds of MB, never copied into a str."""
     size = sum(len(r.analysis.capacitors) for r in runs)
     failures = list(failures or ())
     if len(runs) == 1 and exit_code is None and not failures:

@@ -16,6 +16,10 @@ import numpy as np
 
 GROUND = "0"
 
+#: A MOSFET's channel width and length when its line gives none (metres: SPICE's DEFW and
+#: DEFL, recalled from memory), shared by the reader (choosing a bin) and the device models.
+DEFAULT_MOS_WIDTH = DEFAULT_MOS_LENGTH = 100e-6
+
 #: Element letters the reader accepts, and what each is.
 ELEMENT_KINDS = {
     "r": "resistor",

@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import os
 
-from tauscan.circuit import Element, Model
+from tauscan.circuit import DEFAULT_MOS_LENGTH, DEFAULT_MOS_WIDTH, Element, Model
 from tauscan.errors import CircuitError
 
 INF = math.inf
@@ -22,7 +22,7 @@ MOS_DEFAULTS = {
     "cjsw": 0.0, "mjsw": 0.33, "tox": None, "uo": 600.0, "ld": 0.0, "fc": 0.5,
     "tnom": None, "nsub": None,
 }
-MOS_INSTANCE = {"w": 100e-6, "l": 100e-6, "ad": 0.0, "as": 0.0, "pd": 0.0, "ps": 0.0, "nrd": 0.0, "nrs": 0.0, "m": 1.0}
+MOS_INSTANCE = {"w": DEFAULT_MOS_WIDTH, "l": DEFAULT_MOS_LENGTH, "ad": 0.0, "as": 0.0, "pd": 0.0, "ps": 0.0, "nrd": 0.0, "nrs": 0.0, "m": 1.0}
 
 BJT_DEFAULTS = {
     "is": 1e-16, "bf": 100.0, "nf": 1.0, "vaf": INF, "ikf": INF, "ise": 0.0, "ne": 1.5,

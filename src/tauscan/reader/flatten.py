@@ -13,7 +13,7 @@ import re
 from itertools import repeat
 from operator import attrgetter, itemgetter, methodcaller
 
-from tauscan.circuit import GROUND, Circuit, Element, Model
+from tauscan.circuit import DEFAULT_MOS_LENGTH, DEFAULT_MOS_WIDTH, GROUND, Circuit, Element, Model
 from tauscan.errors import ExpressionError, HierarchyError, NetlistSyntaxError, SettingsError, TauscanError, did_you_mean
 from tauscan.reader.checks import check_recursion, placed, undefined_models
 from tauscan.reader.elements import RULES, check_passive_value
@@ -42,11 +42,6 @@ _GROUND_OF = {name: GROUND for name in GROUND_NAMES}
 
 #: The first six words of a line and the rest (see :meth:`Flattener._device_elements`).
 _SEVEN = methodcaller("split", None, 6)
-
-
-#: The geometry a MOSFET line without W or L has (metres; the SPICE defaults, see
-#: :data:`tauscan.devices.cards.MOS_INSTANCE`), for choosing its bin.
-MOS_DEFAULT_W = MOS_DEFAULT_L = 100e-6
 
 
 def _within(value: float, lo: float, hi: float) -> bool:
@@ -229,8 +224,8 @@ class Flattener:
         as SKY130 is binned; common practice, from memory), L and W in metres after
         ``.option scale``.  Raises (unlocated) when no bin fits."""
         s = self.scale
-        length = instance["l"] * s if "l" in instance else MOS_DEFAULT_L
-        width = (instance["w"] * s if "w" in instance else MOS_DEFAULT_W) / max(instance.get("nf", 1.0), 1.0)
+        length = instance["l"] * s if "l" in instance else DEFAULT_MOS_LENGTH
+        width = (instance["w"] * s if "w" in instance else DEFAULT_MOS_WIDTH) / max(instance.get("nf", 1.0), 1.0)
         ranges = []
         for name in owner.bins[base]:
             key = (host.prefix, name)
@@ -338,7 +333,7 @@ class Flattener:
             for key, power in (("w", 1), ("l", 1), ("ad", 2), ("as", 2), ("pd", 1), ("ps", 1)):
                 if key in params:
                     params[key] *= s**power
-            width, length = params.get("w", MOS_DEFAULT_W), params.get("l", MOS_DEFAULT_L)
+            width, length = params.get("w", DEFAULT_MOS_WIDTH), params.get("l", DEFAULT_MOS_LENGTH)
             if min(width, length) < 1e-9:
                 self.tiny_geometry.append((element.name, width, length))
         if mult != 1.0:

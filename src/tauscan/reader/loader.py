@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import os
 import re
+from bisect import insort
 from dataclasses import dataclass, field
 
 from tauscan.circuit import ELEMENT_KINDS
@@ -28,6 +29,10 @@ _MODEL_HEAD = re.compile(r"\s*\.model\s+([^\s=(){}'\",]+)\s+[A-Za-z_]\w*(?=[\s(]
 
 #: A binned model card's name: ``base.N`` (the bins of one device, chosen by L and W).
 _BIN_NAME = re.compile(r"(.+)\.(\d+)\Z")
+
+def _bin_number(name: str) -> int:
+    return int(name.rsplit(".", 1)[1])
+
 
 #: Deepest chain of nested ``.include`` files.
 MAX_INCLUDE_DEPTH = 64
@@ -176,7 +181,7 @@ class Loader:
                 if name in ("alter", "title", "temp"):
                     self._special(card, name)
                     continue
-            if self.include_chain and len(self.include_chain) > 1 and text[:6].lower() == ".model":
+            if len(self.include_chain) > 1 and text[:6].lower() == ".model":
                 head = _MODEL_HEAD.match(text)
                 if head is not None:  # a library's model card: parsed when an element uses it
                     self._model(card, head.group(1).lower(), None)
@@ -284,9 +289,7 @@ class Loader:
         if name not in current.models:
             binned = _BIN_NAME.match(name)
             if binned is not None:
-                names = current.bins.setdefault(binned.group(1), [])
-                names.append(name)
-                names.sort(key=lambda n: int(n.rsplit(".", 1)[1]))
+                insort(current.bins.setdefault(binned.group(1), []), name, key=_bin_number)
         current.models[name] = (fields, card)
 
     def _params(self, card: Card, args: list[Field] | None) -> None:

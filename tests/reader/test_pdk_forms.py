@@ -167,3 +167,20 @@ def test_bin_limits_with_expressions_are_evaluated(write):
                            ".model nb.2 nmos level=1 vto=0.6 kp=1e-4 lmin={lbound} lmax={lbound*10}\n"
                            "Vd d 0 1\nM1 d d 0 0 nb w=1u l=0.5u\nM2 d d 0 0 nb w=1u l=5u\n"))
     assert (c.element("m1").model, c.element("m2").model) == ("nb.1", "nb.2")
+
+
+def test_a_wrapped_device_stands_at_its_instance_line(write, tmp_path):
+    # the wrapper in a library file of its own; the designer's X line carries a waiver
+    (tmp_path / "lib.sp").write_text(".subckt nw d g s b w=1\nMnw d g s b nm w={w*1u} l=0.5u\n"
+                                     ".model nm nmos level=1 vto=0.5 kp=200u cgso=1n cgdo=1n\n.ends\n")
+    path = write("t\n.include lib.sp\nVdd vdd 0 1.8\nVg g 0 dc 0.9 ac 1\nRd vdd d 5k\n"
+                 "xm1 d g 0 0 nw w=2 ; tauscan-waive[cgd]: overlap accepted by design\n")
+    c = read_netlist(path)
+    m = c.element("xm1")
+    assert (m.file, m.line) == (path, 6) and "tauscan-waive[cgd]" in m.comment
+    from tauscan.pipeline import ScanRequest, scan
+
+    run = scan(ScanRequest(path))
+    assert run.lint.waived.get("xm1:cgd") == "overlap accepted by design"
+    cap = next(x for x in run.analysis.capacitors if x.name == "xm1:cgd")
+    assert (cap.file, cap.line) == (path, 6)

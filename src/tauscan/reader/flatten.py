@@ -82,10 +82,11 @@ class Frame:
     """One instance being expanded: its definition, name prefix, pins and parameters."""
 
     __slots__ = ("definition", "prefix", "pins", "scope", "parent", "flattener", "depth", "_models", "_nodes",
-                 "mult", "solo")
+                 "mult", "solo", "origin")
 
     def __init__(self, definition: Definition, prefix: str, pins: dict[str, str], scope: ParamScope, parent: "Frame | None",
-                 flattener: "Flattener", depth: int, mult: float = 1.0, solo: str | None = None) -> None:
+                 flattener: "Flattener", depth: int, mult: float = 1.0, solo: str | None = None,
+                 origin: Card | None = None) -> None:
         self.definition = definition
         self.prefix = prefix
         self.pins = pins
@@ -100,6 +101,9 @@ class Frame:
         #: the instance's name when its definition holds one element only (a device wrapper,
         #: as PDK libraries write): that element is reported under it
         self.solo = solo
+        #: the X line of a device wrapper: its device is placed there (file, line and the
+        #: comment, where a designer writes an inline waiver), not on the library's line
+        self.origin = origin
 
     def element_name(self, name: str) -> str:
         """The flat name of an element written ``name`` in this instance."""
@@ -450,6 +454,9 @@ class Flattener:
         if frame.mult != 1.0 or self.scale != 1.0:
             for element in elements:
                 self._finish(element, frame.mult)
+        if frame.origin is not None:
+            for element in elements:
+                _place_at(element, frame.origin)
         self.circuit.add_many(elements, map(base.__add__, run.at))
         return True
 
@@ -616,6 +623,8 @@ class Flattener:
     def _add(self, element: Element, card: Card | DeviceLine, frame: Frame) -> None:
         if frame.mult != 1.0 or (self.scale != 1.0 and element.kind == "m"):
             self._finish(element, frame.mult)
+        if frame.origin is not None:
+            _place_at(element, frame.origin)
         if element.name in self.names:
             where = self._first_at(element.name)
             raise card.error(NetlistSyntaxError, f"element {element.name!r} is defined twice (first at {where})", 0)
@@ -672,7 +681,7 @@ class Flattener:
         pins = {pin: frame.node(f.text) for pin, f in zip(definition.pins, nodes)}
         prefix = frame.prefix + name + "."
         solo = frame.prefix + name if self._single_element(definition) else None
-        return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1, mult, solo)
+        return Frame(definition, prefix, pins, scope, frame, self, frame.depth + 1, mult, solo, card if solo else None)
 
     def _single_element(self, definition: Definition) -> bool:
         """Whether a definition holds exactly one element, a semiconductor device (M, Q or D), and
@@ -687,6 +696,12 @@ class Flattener:
                      or (type(first) is PlainRun and first.hi == first.lo and len(first.devices or ()) == 1))
             self.solo_definitions[id(definition)] = known
         return known
+
+
+def _place_at(element: Element, card: Card) -> None:
+    """A wrapped device placed at its instance line: that line's file, line and comment."""
+    element.file, element.line = card.file, card.line
+    element.comment = card.comment
 
 
 class _InstanceValues:

@@ -310,3 +310,20 @@ def test_large_circuit_search_uses_the_slope_and_meets_scipy_signal(write, monke
     plain = api.scan(path, probe=f"n{n}", settings=AnalysisSettings(dense_limit=0))
     assert_allclose(plain.f3db_hz, minus3db(sys), rtol=1e-3)
     assert with_slope < len(calls)
+
+
+def test_sparse_dominant_pole_is_the_transfers(write):
+    # a slow pole the transfer barely sees (a bias node filtered through 1 Gohm and 1 nF, 0.16 Hz)
+    # beside a 40-section ladder: the sparse path's smallest pole is the slow one, and the
+    # dominant pole algorithm must find the ladder's, as the dense path does by residues
+    # (METHOD section 7; Rommes and Martins 2006).  Reference: the dense generalized eigen-solver.
+    text = ladder(40) + "Rf n20 bf 1g\nCf bf 0 1n\n"
+    path = write(text)
+    dense = api.scan(path, probe="n40")
+    sparse = api.scan(path, probe="n40", settings=AnalysisSettings(dense_limit=10))
+    assert abs(sparse.poles[0]) / (2 * math.pi) < 1.0  # the slow pole comes first by magnitude
+    assert "residue" in dense.methods["dominant pole"] and "residue" in sparse.methods["dominant pole"]
+    assert_allclose(sparse.dominant_pole_hz, dense.dominant_pole_hz, rtol=1e-6)
+    assert sparse.dominant_pole_hz > 1e4  # the ladder's (about 240 kHz), not the filter's
+    for c in dense.capacitors[:5]:
+        assert_allclose(sparse.capacitor(c.name).pole_share, c.pole_share, rtol=1e-4, atol=1e-8)

@@ -106,6 +106,10 @@ def analyze_network(ss: SmallSignalNetwork, op: OperatingPoint, probe: str | Non
     e = out_probe.vector(wfactors.g.shape[0]) if out_probe is not None else None
     # -- poles and what to fix ---------------------------------------------------
     found = poles_mod.find_poles(wfactors, settings.dense_limit, b, e)
+    edge = chosen.passband.f_high if chosen.passband is not None else None
+    if not found.complete and b is not None and e is not None and edge:
+        # the few smallest poles of a large circuit may be none that the transfer sees
+        found = poles_mod.transfer_dominant(wfactors, found, b, e, edge)
     warnings.extend(found.notes)
     unstable = found.unstable()
     shares = np.full(len(kept.records), np.nan)

@@ -4,7 +4,8 @@
 Poles are s = -1/lambda for the nonzero eigenvalues lambda of G^-1 C: dense
 generalized eigenvalues for small circuits, shift-invert Arnoldi (ARPACK through
 scipy.sparse.linalg.eigs, with the operator G^-1 C, i.e. shift 0) for the few
-dominant ones of a large circuit.  Dominant-pole sensitivities follow Rommes
+smallest ones of a large circuit, and for its transfer the dominant pole algorithm
+(:func:`transfer_dominant`), since the smallest poles may be ones the transfer never sees.  Dominant-pole sensitivities follow Rommes
 and Martins (IEEE Trans. Power Systems 21(3), 2006):
 
     S_k = (C_k / p) dp/dC_k = -C_k (y_a - y_b)(x_a - x_b) / (y^T C x)
@@ -209,6 +210,120 @@ def _unique(values: np.ndarray, rtol: float = 1e-8) -> np.ndarray:
         if not any(abs(v - u) <= rtol * abs(u) for u in out):
             out.append(v)
     return np.array(out, dtype=complex)
+
+
+#: Newton steps of the dominant-pole iteration before it is given up, and the relative size
+#: of a step that counts as converged (the solves near a pole carry round-off of about 1e-9
+#: relative: the iteration converges quadratically down to it, then wanders).
+DPA_STEPS = 12
+DPA_TOL = 1e-8
+
+
+def transfer_dominant(factors: Factors, found: Poles, b: np.ndarray, e: np.ndarray, start_hz: float) -> Poles:
+    """The transfer's dominant pole for a large circuit, whose few poles found by shift-invert
+    are the smallest ones and may be poles the transfer never sees (a bias filter, a coupling
+    capacitor's corner): the dominant pole algorithm (Newton's method on 1/H(s); Martins,
+    Lima and Pinto 1996, in the form of Rommes and Martins, IEEE Trans. Power Systems 21(3),
+    2006), started on the imaginary axis at ``start_hz`` (the pass band's upper edge), then
+    the larger |r| / |Re p| of that pole and the smallest one decides (the dominant pole of a
+    transfer is the one with the largest |r| / |Re p|, Rommes and Martins 2006).
+
+    Parameters
+    ----------
+    factors : Factors
+        G and C of the network and its complex solver.
+    found : Poles
+        What :func:`find_poles` found (sparse: the smallest poles, the first with its vectors).
+    b, e : ndarray, shape (n,)
+        The drive and the probe vector of the transfer e^T (G + sC)^-1 b.
+    start_hz : float
+        Where the iteration starts, s0 = j 2 pi start_hz.
+
+    Returns
+    -------
+    Poles
+        ``found`` with the transfer's dominant pole among its values, its vectors, and how it
+        was chosen; ``found`` itself when the iteration does not converge to a stable pole.
+    """
+    result = None
+    for start in (start_hz, start_hz / 3):  # a second start when the first leads astray
+        result = _dpa(factors, b, e, 2j * np.pi * start)
+        if result is not None:
+            break
+    if result is None:
+        notes = list(found.notes) + [f"the dominant pole algorithm found no pole from the pass band's edge (within "
+                                     f"{DPA_STEPS} steps, its factorizations taking diagonal pivots): the smallest "
+                                     "pole found stands for the transfer's dominant one"]
+        return Poles(found.values, found.complete, found.method, found.right, found.left, notes,
+                     dominant_index=found.dominant_index, dominance=found.dominance)
+    p, x, y, residue = result
+    if p.real > -UNSTABLE_RTOL * abs(p):
+        return found
+    weight = abs(residue) / abs(p.real)
+    if len(found.values) and found.right is not None and found.left is not None:
+        q = complex(found.values[found.dominant_index])
+        if abs(q - p) > 1e-7 * abs(p) and _weight(q, found.right, found.left, b, e, factors.c) >= weight:
+            return found
+    values = list(found.values)
+    same = [k for k, q in enumerate(values) if abs(q - p) <= 1e-7 * abs(p)]
+    if same:
+        index = same[0]
+    else:
+        values.append(p)
+        values.sort(key=lambda q: (abs(q), q.imag))
+        index = next(k for k, q in enumerate(values) if q == p)
+    return Poles(_tidy(np.array(values, dtype=complex)), found.complete, found.method, x, y, list(found.notes),
+                 dominant_index=index, dominance="largest |residue| / |Re p| of the transfer (dominant pole algorithm "
+                 "from the pass band's edge, against the smallest pole)")
+
+
+def _weight(p: complex, x: np.ndarray, y: np.ndarray, b: np.ndarray, e: np.ndarray, c) -> float:
+    """|r| / |Re p| of a pole with right and left vectors x, y (r its residue in e^T (G+sC)^-1 b)."""
+    den = y @ (c @ x)
+    if den == 0 or p.real == 0:
+        return 0.0
+    return float(abs((e @ x) * (y @ b) / den) / abs(p.real))
+
+
+def _dpa(factors: Factors, b: np.ndarray, e: np.ndarray, s: complex) -> tuple[complex, np.ndarray, np.ndarray, complex] | None:
+    """Newton's method on 1/H: s <- s - H(s) / (w^T C v), with (G + sC) v = b and
+    (G + sC)^T w = e (so that dH/ds = -w^T C v).  At convergence v and w are the pole's right
+    and left vectors, and its residue is r = -H^2 / H' = H^2 / (w^T C v) (near the pole
+    H ~ r / (s - p)), which needs no vector of the rows the complex solver takes out.  None
+    when it does not converge within :data:`DPA_STEPS`."""
+    solver = factors.complex
+    c = factors.c
+    b = np.asarray(b, dtype=complex)
+    e = np.asarray(e, dtype=complex)
+    for _ in range(DPA_STEPS):
+        try:
+            lu = solver.factor(s)
+        except RuntimeError:  # a zero pivot exactly at this s: a step aside
+            try:
+                s = s * (1 + 1e-7) + 1e-7j * abs(s)
+                lu = solver.factor(s)
+            except RuntimeError:
+                return None
+        v = solver.solve(lu, b)
+        w = solver.solve(lu, e, trans="T")
+        h = e @ v
+        d = w @ (c @ v)
+        if d == 0 or not (np.isfinite(h) and np.isfinite(d)):
+            return None
+        step = h / d
+        s_next = s - step
+        if not np.isfinite(s_next):
+            return None
+        if abs(step) <= DPA_TOL * abs(s_next):
+            nv, nw = np.linalg.norm(v), np.linalg.norm(w)
+            if nv == 0 or nw == 0:
+                return None
+            p = complex(s_next)
+            if abs(p.imag) <= 1e-7 * abs(p):
+                p = complex(p.real, 0.0)
+            return p, v / nv, w / nw, complex(h * h / d)
+        s = complex(s_next)
+    return None
 
 
 def _tidy(poles: np.ndarray) -> np.ndarray:

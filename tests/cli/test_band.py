@@ -212,7 +212,7 @@ def test_fix_first_names_the_largest_transfer_time_constant_and_skips_waivers():
 def test_no_gain_is_grounded_and_numbers_print_plainly(tmp_path):
     """C2 bridges node a to node y, which only a resistor to ground holds: with capacitors
     open y does not move (K = 0 up to round-off), so C2 is classed grounded, not Miller."""
-    from tauscan.report.scan_table import _num, signed_pct
+    from tauscan.report.scan_table import num as _num, signed_pct
 
     path = tmp_path / "k0.sp"
     path.write_text("no gain across\nVin in 0 dc 0 ac 1\nR1 in a 1k\nRa a 0 1k\nC1 a 0 1p\n"

@@ -13,7 +13,7 @@ import html
 import os
 from urllib.parse import quote
 
-from tauscan.report.scan_table import fix_first_line, signed_pct
+from tauscan.report.scan_table import num, pct, summary_rows
 from tauscan.units import eng
 
 STYLE = """
@@ -108,30 +108,8 @@ def _table(table_id: str, headers: list[tuple[str, str]], rows: list[str]) -> st
 
 
 def _summary(run) -> str:
-    a = run.analysis
-    rows = []
-    band = a.band
-    if band is not None and band.note:
-        rows.append(("circuit analysed", band.note))
-    rows.append(("sum of time constants", eng(a.sum_tau_s, "s")))
-    rows.append(("open-circuit estimate", eng(a.octc_hz, "Hz")))
-    if a.sum_transfer_tau_s is not None:
-        rows.append(("signal-path estimate", f"{eng(a.elmore_hz, 'Hz')} (sum of transfer time constants "
-                     f"{eng(a.sum_transfer_tau_s, 's')})"))
-    rows.append(("dominant pole (exact)", eng(a.dominant_pole_hz, "Hz")))
-    rows.append((f"-3 dB{' at ' + a.probe if a.probe else ''}", eng(a.f3db_hz, "Hz") if a.f3db_hz else a.f3db_note))
-    if a.estimate_error is not None:
-        rows.append(("estimate vs exact", signed_pct(a.estimate_error)))
-    if a.dc_gain is not None and a.source:
-        rows.append(("low-frequency gain", f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}"))
-    if a.probe:
-        rows.append(("probe", f"{a.probe} ({a.probe_reason})" if a.probe_reason else a.probe))
-    fix = fix_first_line(a, run.lint.waived)
-    if fix:
-        rows.append(("fix first", fix))
-    for p in a.unstable_poles:
-        rows.append(("unstable pole", f"{eng(abs(p) / 6.283185307179586, 'Hz')} (real part {p.real:+.3g} /s)"))
-    body = "".join(f"<tr><th scope=\"row\">{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in rows)
+    body = "".join(f"<tr><th scope=\"row\">{_e(label)}</th><td>{_e(value)}</td></tr>"
+                   for label, value, _ in summary_rows(run))
     return f'<table class="summary">{body}</table>'
 
 
@@ -148,12 +126,12 @@ def _capacitors(run, k: int, top: int | None) -> str:
     rows = []
     for i, c in enumerate(caps, start=1):
         cells = [_cell(str(i), i), _cell(c.name, numeric=False), _cell(f"{c.node_in} -> {c.node_out}", numeric=False),
-                 _cell(eng(c.farads, "F"), c.farads), _cell(_g(c.gain), c.gain),
-                 _cell(c.klass, numeric=False, klass=c.klass), _cell(_g(c.factor_in), c.factor_in),
-                 _cell(eng(c.ohms, "ohm"), c.ohms), _cell(eng(c.tau_s, "s"), c.tau_s), _cell(_pct(c.share), c.share)]
+                 _cell(eng(c.farads, "F"), c.farads), _cell(num(c.gain), c.gain),
+                 _cell(c.klass, numeric=False, klass=c.klass), _cell(num(c.factor_in), c.factor_in),
+                 _cell(eng(c.ohms, "ohm"), c.ohms), _cell(eng(c.tau_s, "s"), c.tau_s), _cell(pct(c.share), c.share)]
         if transfer:
-            cells += [_cell(_g(c.signal_gain), c.signal_gain), _cell(eng(c.transfer_tau_s, "s"), c.transfer_tau_s),
-                      _cell(_pct(c.transfer_share), c.transfer_share)]
+            cells += [_cell(num(c.signal_gain), c.signal_gain), _cell(eng(c.transfer_tau_s, "s"), c.transfer_tau_s),
+                      _cell(pct(c.transfer_share), c.transfer_share)]
         cells += [_cell(eng(c.octc_hz_if_removed, "Hz"), c.octc_hz_if_removed),
                   _cell(waived.get(c.name, ""), numeric=False)]
         rows.append("<tr>" + "".join(cells) + "</tr>")
@@ -180,10 +158,10 @@ def _nodes(run, k: int, top: int | None) -> str:
         headers += [("t", "T"), ("t-share", "T share"), ("path", "path")]
     rows = []
     for n in nodes:
-        cells = [_cell(n.node, numeric=False), _cell(eng(n.tau_s, "s"), n.tau_s), _cell(_pct(n.share), n.share),
-                 _cell(_pct(n.miller_share), n.miller_share)]
+        cells = [_cell(n.node, numeric=False), _cell(eng(n.tau_s, "s"), n.tau_s), _cell(pct(n.share), n.share),
+                 _cell(pct(n.miller_share), n.miller_share)]
         if transfer:
-            cells += [_cell(eng(n.transfer_tau_s, "s"), n.transfer_tau_s), _cell(_pct(n.transfer_share), n.transfer_share),
+            cells += [_cell(eng(n.transfer_tau_s, "s"), n.transfer_tau_s), _cell(pct(n.transfer_share), n.transfer_share),
                       _cell("signal" if n.on_signal_path else "off", numeric=False)]
         rows.append("<tr>" + "".join(cells) + "</tr>")
     return f"<h3>Nodes by time constant ({len(nodes)} of {len(a.nodes)})</h3>" + _table(f"nodes-{k}", headers, rows)
@@ -223,14 +201,6 @@ def _figure(run, top: int | None) -> str:
         svg = svg[:lo] + svg[hi + len("</metadata>"):]
     return f'<figure aria-label="shares and response">{svg}</figure>'
 
-
-
-def _pct(x) -> str:
-    return "-" if x is None else f"{100 * x:.1f}%"
-
-
-def _g(x) -> str:
-    return "-" if x is None or x != x else f"{x:.3g}"
 
 
 def render(runs: list, top: int | None = 20, exit_code: int | None = None, failures: list | None = None) -> str:

@@ -15,14 +15,14 @@ CLASS_STYLE = {"miller": "bold magenta", "regenerative": "bold red", "bootstrap"
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "blue"}
 
 
-def _pct(x: float | None) -> str:
+def pct(x: float | None) -> str:
     if x is None:
         return "-"
     text = f"{100 * x:.1f}%"
     return "0.0%" if text == "-0.0%" else text
 
 
-def _num(x: float | None, digits: int = 3) -> str:
+def num(x: float | None, digits: int = 3) -> str:
     """A gain or factor: plain digits up to 1e6 (never ``1e+05``), no ``-0``."""
     if x is None or x != x:
         return "-"
@@ -40,41 +40,50 @@ def signed_pct(x: float) -> str:
     return "0.0%" if text in ("-0.0%", "+0.0%") else text
 
 
-def summary(run, width: int | None = None) -> Table:
+def summary_rows(run, width: int | None = None) -> list[tuple[str, str, str]]:
+    """The summary as (label, value, label style) rows, shared by the terminal table and the
+    HTML report (``width``: names in the 'fix first' line elided to fit it)."""
     a = run.analysis
-    grid = Table.grid(padding=(0, 2))
-    grid.add_column(style="bold")
-    grid.add_column()
+    rows: list[tuple[str, str, str]] = []
     band = a.band
     if band is not None and band.note:
-        grid.add_row("circuit analysed", band.note)
+        rows.append(("circuit analysed", band.note, ""))
     if band is not None and band.f_low_hz:
-        grid.add_row("low corner", f"{eng(band.f_low_hz, 'Hz')} exact, {eng(band.f_low_estimate_hz, 'Hz')} "
-                     "by short-circuit time constants")
-    grid.add_row("sum of time constants", eng(a.sum_tau_s, "s"))
-    grid.add_row("open-circuit estimate", eng(a.octc_hz, "Hz"))
+        rows.append(("low corner", f"{eng(band.f_low_hz, 'Hz')} exact, {eng(band.f_low_estimate_hz, 'Hz')} "
+                     "by short-circuit time constants", ""))
+    rows.append(("sum of time constants", eng(a.sum_tau_s, "s"), ""))
+    rows.append(("open-circuit estimate", eng(a.octc_hz, "Hz"), ""))
     if a.sum_transfer_tau_s is not None:
-        grid.add_row("signal-path estimate", eng(a.elmore_hz, "Hz") + f"  (sum of transfer time constants "
-                     f"{eng(a.sum_transfer_tau_s, 's')})")
+        rows.append(("signal-path estimate", eng(a.elmore_hz, "Hz") + f"  (sum of transfer time constants "
+                     f"{eng(a.sum_transfer_tau_s, 's')})", ""))
     dom = eng(a.dominant_pole_hz, "Hz")
     if a.dominant_q is not None:
         dom += f" (complex pair, Q = {a.dominant_q:.2f})"
-    grid.add_row("dominant pole (exact)", dom)
+    rows.append(("dominant pole (exact)", dom, ""))
     where = f" at {a.probe}" if a.probe else ""
-    grid.add_row(f"-3 dB{where}", eng(a.f3db_hz, "Hz") + ("" if a.f3db_hz else f"  ({a.f3db_note})"))
+    rows.append((f"-3 dB{where}", eng(a.f3db_hz, "Hz") + ("" if a.f3db_hz else f"  ({a.f3db_note})"), ""))
     if a.estimate_error is not None:
-        grid.add_row("estimate vs exact", signed_pct(a.estimate_error) + _trust(a))
+        rows.append(("estimate vs exact", signed_pct(a.estimate_error) + _trust(a), ""))
     if a.dc_gain is not None and a.source:
         what = "mid-band gain" if band is not None and band.f_low_hz else "low-frequency gain"
-        grid.add_row(what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}")
+        rows.append((what, f"{a.dc_gain:.4g} {a.drive_unit or 'from ' + a.source}", ""))
     if a.probe and a.probe_reason:
-        grid.add_row("probe", f"{a.probe} ({a.probe_reason})")
+        rows.append(("probe", f"{a.probe} ({a.probe_reason})", ""))
     fix = fix_first_line(a, run.lint.waived, name_limit(width))
     if fix:
-        grid.add_row(Text("fix first", style="bold"), fix)
+        rows.append(("fix first", fix, "bold"))
     for p in a.unstable_poles:
-        grid.add_row(Text("unstable pole", style="bold red"), f"{eng(abs(p) / 6.283185307179586, 'Hz')} "
-                     f"(real part {p.real:+.3g} /s: right half-plane)")
+        rows.append(("unstable pole", f"{eng(abs(p) / 6.283185307179586, 'Hz')} "
+                     f"(real part {p.real:+.3g} /s: right half-plane)", "bold red"))
+    return rows
+
+
+def summary(run, width: int | None = None) -> Table:
+    grid = Table.grid(padding=(0, 2))
+    grid.add_column(style="bold")
+    grid.add_column()
+    for label, value, style in summary_rows(run, width):
+        grid.add_row(Text(label, style=style) if style else label, value)
     return grid
 
 
@@ -248,12 +257,12 @@ def capacitor_table(run, top: int | None, width: int | None = None, chosen: tupl
             name = elide_middle(c.name, limit) + (" (waived)" if c.name in waived else "")
             nodes = f"{elide_middle(c.node_in, limit // 2)} -> {elide_middle(c.node_out, limit // 2)}" \
                 if limit and len(c.node_in) + len(c.node_out) + 4 > limit else f"{c.node_in} -> {c.node_out}"
-            row = [str(k), name, nodes, eng(c.farads, "F"), _num(c.gain),
-                   Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), _num(c.factor_in), eng(c.ohms, "ohm"),
-                   eng(c.tau_s, "s"), _pct(c.share)]
+            row = [str(k), name, nodes, eng(c.farads, "F"), num(c.gain),
+                   Text(c.klass, style=CLASS_STYLE.get(c.klass, "")), num(c.factor_in), eng(c.ohms, "ohm"),
+                   eng(c.tau_s, "s"), pct(c.share)]
             if transfer:
-                row += [_num(c.signal_gain), eng(c.transfer_tau_s, "s"), _pct(c.transfer_share)]
-            row += [_pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
+                row += [num(c.signal_gain), eng(c.transfer_tau_s, "s"), pct(c.transfer_share)]
+            row += [pct(c.pole_share), eng(c.octc_hz_if_removed, "Hz"), eng(c.octc_hz_if_cascoded, "Hz")]
             rows.append(row)
         return rows
 
@@ -295,9 +304,9 @@ def node_table(run, top: int | None, width: int | None = None) -> Table:
     rows = []
     for n in nodes:
         flag = Text("Miller-dominated", style="bold magenta") if n.miller_dominated else Text("-")
-        row = [elide_middle(n.node, name_limit(width)), eng(n.tau_s, "s"), _pct(n.share), _pct(n.miller_share)]
+        row = [elide_middle(n.node, name_limit(width)), eng(n.tau_s, "s"), pct(n.share), pct(n.miller_share)]
         if transfer:
-            row += [eng(n.transfer_tau_s, "s"), _pct(n.transfer_share), _pct(n.signal_miller_share),
+            row += [eng(n.transfer_tau_s, "s"), pct(n.transfer_share), pct(n.signal_miller_share),
                     "signal" if n.on_signal_path else "off"]
         rows.append(row + [flag])
     return _table(f"Nodes by time constant ({len(nodes)} of {len(a.nodes)})", columns, rows, width)

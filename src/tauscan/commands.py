@@ -192,7 +192,8 @@ def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float
     """Scan every request (see :func:`_run_batch`).  A netlist scanned at several corners
     has its transfer fixed once: its first run chooses the probe (when neither the command
     line nor the settings name one), and every other corner of it uses that probe, so that no
-    corner changes what is measured and ``(worst)`` compares the same transfer."""
+    corner changes what is measured and ``(worst)`` compares the same transfer.  The two
+    rounds share one pool of worker processes."""
     from tauscan.pipeline import ScanFailure
 
     groups: dict[str, list[int]] = {}
@@ -201,27 +202,40 @@ def _run_all(requests, jobs: int = 1, cluster: str | None = None, timeout: float
     leaders = [ks[0] for ks in groups.values() if len(ks) > 1 and requests[ks[0]].probe is None]
     if not leaders:
         return _run_batch(requests, jobs, cluster, timeout)
-    results: list = [None] * len(requests)
-    for k, result in zip(leaders, _run_batch([requests[k] for k in leaders], jobs, cluster, timeout)):
-        results[k] = result
-    rest = []
-    for ks in groups.values():
-        lead = results[ks[0]]
-        for k in ks:
-            if results[k] is not None:
-                continue
-            request = requests[k]
-            if lead is not None and not isinstance(lead, ScanFailure) and lead.analysis.probe:
-                request = dataclasses.replace(request, pinned_probe=lead.analysis.probe)
-            rest.append((k, request))
-    for (k, _), result in zip(rest, _run_batch([r for _, r in rest], jobs, cluster, timeout)):
-        results[k] = result
+    workers = jobs or os.cpu_count() or 1
+    pool = None
+    if not cluster and workers > 1:
+        from concurrent.futures import ProcessPoolExecutor
+
+        pool = ProcessPoolExecutor(max_workers=min(workers, len(requests)))
+    try:
+        results: list = [None] * len(requests)
+        # (a batch: one failing run is a failure of its own, never the command's error)
+        for k, result in zip(leaders, _run_batch([requests[k] for k in leaders], jobs, cluster, timeout, pool, False)):
+            results[k] = result
+        rest = []
+        for ks in groups.values():
+            lead = results[ks[0]]
+            for k in ks:
+                if results[k] is not None:
+                    continue
+                request = requests[k]
+                if lead is not None and not isinstance(lead, ScanFailure) and lead.analysis.probe:
+                    request = dataclasses.replace(request, pinned_probe=lead.analysis.probe)
+                rest.append((k, request))
+        for (k, _), result in zip(rest, _run_batch([r for _, r in rest], jobs, cluster, timeout, pool, False)):
+            results[k] = result
+    finally:
+        if pool is not None:
+            pool.shutdown()
     return results
 
 
-def _run_batch(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0):
+def _run_batch(requests, jobs: int = 1, cluster: str | None = None, timeout: float = 15.0, pool=None,
+               alone_raises: bool = True):
     """Scan every request: on a Dask cluster when one is named, else in worker processes
-    when there are several and jobs allow."""
+    (``pool``, or a pool of its own) when there are several and jobs allow.  A request alone
+    raises its error (``alone_raises``: the command's only netlist) instead of returning it."""
     if not requests:
         return []
     from tauscan.pipeline import scan, scan_in_worker_or_failure, scan_or_failure
@@ -234,12 +248,14 @@ def _run_batch(requests, jobs: int = 1, cluster: str | None = None, timeout: flo
 
     workers = jobs or os.cpu_count() or 1
     if len(requests) > 1 and workers > 1:
+        if pool is not None:
+            return list(pool.map(scan_in_worker_or_failure, requests))
         from concurrent.futures import ProcessPoolExecutor
 
-        with ProcessPoolExecutor(max_workers=min(workers, len(requests))) as pool:
-            return list(pool.map(scan_in_worker_or_failure, requests))
+        with ProcessPoolExecutor(max_workers=min(workers, len(requests))) as own:
+            return list(own.map(scan_in_worker_or_failure, requests))
     with StageProgress() as progress:
-        if len(requests) == 1:  # one netlist: its error is the command's
+        if len(requests) == 1 and alone_raises:  # one netlist: its error is the command's
             return [scan(requests[0], progress)]
         return [scan_or_failure(r, progress) for r in requests]
 

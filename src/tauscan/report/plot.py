@@ -62,11 +62,6 @@ def render_all(runs: list, path: str, top: int | None = 15) -> bytes:
     return buffer.getvalue()
 
 
-def render(run, freqs=None, mags=None, path: str = "plot.png", top: int = 15) -> bytes:
-    """One run's figure (the response comes with the run: ``freqs``/``mags`` are ignored)."""
-    return render_all([run], path, top)
-
-
 def _shares(ax, run, top: int) -> None:
     a = run.analysis
     ranked = a.on_path_capacitors if a.rank == "transfer" and a.sum_transfer_tau_s is not None else a.capacitors

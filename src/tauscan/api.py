@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-from tauscan.analysis import AnalysisSettings, analyze
+from tauscan.analysis import AnalysisSettings
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
 from tauscan.lint.gate import LintResult
@@ -42,6 +42,8 @@ class ScanResult:
     op: OperatingPoint
 
     def __getattr__(self, name: str):
+        if name.startswith("__") or name == "analysis":  # (copy and pickle look these up first)
+            raise AttributeError(name)
         return getattr(self.analysis, name)
 
     @property
@@ -70,20 +72,11 @@ def scan(path: str, *, probe: str | None = None, source: str | None = None, para
     included) and ``nodes_frame()``.  ``settings`` replaces the analysis settings the settings
     file would give."""
     from tauscan import pipeline
-    from tauscan.lint.gate import run_rules
 
     request = pipeline.ScanRequest(path, params=dict(params or {}), temp_c=temp_c, op_file=op_file, probe=probe,
-                                   source=source, config=config)
-    if settings is None:
-        run = pipeline.scan(request)
-        return ScanResult(run.analysis, run.lint, run.circuit, run.op)
-    lint_settings = pipeline.settings_for(request)
-    circuit = read_netlist(path, params, options=pipeline.read_options(request, lint_settings))
-    op = bias(circuit, temp_c, op_file)
-    analysis = analyze(op, probe=probe or lint_settings.probe, source=source or lint_settings.source, settings=settings)
-    analysis.warnings.extend(circuit.warnings)
-    lint = run_rules(analysis, circuit, op, lint_settings, (probe or lint_settings.probe) is not None)
-    return ScanResult(analysis, lint, circuit, op)
+                                   source=source, config=config, analysis=settings)
+    run = pipeline.scan(request)
+    return ScanResult(run.analysis, run.lint, run.circuit, run.op)
 
 
 __all__ = ["read", "bias", "scan", "ScanResult", "Analysis", "AnalysisSettings"]

@@ -47,6 +47,8 @@ class ScanRequest:
     lib_section: str | None = None  # the corner's .lib section, if it selects one
     include_dirs: tuple[str, ...] = ()  # -I folders, searched before the settings' include-dirs
     x_mega: bool | None = None  # --x-mega; None: the settings' choice
+    #: analysis settings that replace those the settings file gives (the Python API's)
+    analysis: AnalysisSettings | None = None
     #: the probe the first run of this netlist chose, kept for its other corners (not "given":
     #: the rules judge as they did on that first run)
     pinned_probe: str | None = None
@@ -188,10 +190,10 @@ def _scan(request: ScanRequest, progress=None) -> ScanRun:
     with timed.stage("linearize", "small-signal network"):
         ss = linearize(op)
     with timed.stage("analyze", "small-signal analysis"):
-        analysis = analyze_network(ss, op, settings.probe or request.pinned_probe, settings.source,
-                                   AnalysisSettings(miller_threshold=settings.miller_threshold, response=request.response,
-                                                    curve_points=request.curve_points,
-                                                    band=band_request(request, settings), rank=settings.rank))
+        chosen = request.analysis or AnalysisSettings(
+            miller_threshold=settings.miller_threshold, response=request.response, curve_points=request.curve_points,
+            band=band_request(request, settings), rank=settings.rank)
+        analysis = analyze_network(ss, op, settings.probe or request.pinned_probe, settings.source, chosen)
         analysis.warnings.extend(circuit.warnings)
         if settings.probe is None and request.pinned_probe:
             analysis.probe_reason = "chosen on the first run of this netlist and kept for every corner"

@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-from tauscan.analysis import AnalysisSettings
+from tauscan.analysis import AnalysisSettings, analyze
 from tauscan.analysis.result import Analysis
 from tauscan.circuit import Circuit
 from tauscan.lint.gate import LintResult
@@ -79,4 +79,4 @@ def scan(path: str, *, probe: str | None = None, source: str | None = None, para
     return ScanResult(run.analysis, run.lint, run.circuit, run.op)
 
 
-__all__ = ["read", "bias", "scan", "ScanResult", "Analysis", "AnalysisSettings"]
+__all__ = ["read", "bias", "analyze", "scan", "ScanResult", "Analysis", "AnalysisSettings"]

@@ -132,7 +132,7 @@ def by_name(name: str) -> DeviceModel:
 
 
 #: The modules of the built-in models; each registers its model when imported.
-BUILTIN = ("tauscan.devices.mosfet", "tauscan.devices.bipolar", "tauscan.devices.diode")
+BUILTIN = ("tauscan.devices.mosfet", "tauscan.devices.bsim4", "tauscan.devices.bipolar", "tauscan.devices.diode")
 _loaded = False
 
 

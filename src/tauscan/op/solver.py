@@ -32,7 +32,7 @@ MAX_DEVICE_CURRENT = 1.0
 
 #: Built-in families first, in this order (it fixes the numbering of internal nodes); other
 #: registered models follow in the order their first device appears.
-FAMILY_ORDER = ("mos", "bjt", "diode")
+FAMILY_ORDER = ("mos", "bsim4", "bjt", "diode")
 
 
 #: Largest DC system whose singular error names the unknowns involved (a dense SVD).

@@ -143,7 +143,7 @@ def test_short_effective_length_is_refused(write):
 
 def test_bsim_card_is_mapped_with_warnings(write):
     c = read_netlist(write("bsim\nVdd vdd 0 1.8\nVg g 0 0.8\nRd vdd d 1k\nM1 d g 0 0 nb w=10u l=1u\n"
-                           ".model nb nmos level=54 vth0=0.5 u0=0.03 toxe=2n k1=0.4 lambda=0.05\n"))
+                           ".model nb nmos level=49 vth0=0.5 u0=0.03 toxe=2n k1=0.4 lambda=0.05\n"))
     op = solve_dc(c)
     text = " ".join(op.warnings)
     assert "VTH0 used as VTO" in text and "U0" in text and "--op" in text
@@ -158,7 +158,7 @@ def test_bsim_card_is_mapped_with_warnings(write):
 
 
 def test_bsim_card_without_level1_equivalents_is_refused(write):
-    c = read_netlist(write("bsim\nVdd vdd 0 1.8\nM1 vdd vdd 0 0 nb w=1u l=1u\n.model nb nmos level=54 toxe=2n\n"))
+    c = read_netlist(write("bsim\nVdd vdd 0 1.8\nM1 vdd vdd 0 0 nb w=1u l=1u\n.model nb nmos level=49 toxe=2n\n"))
     with pytest.raises(CircuitError, match="no level-1 equivalent"):
         solve_dc(c)
 

@@ -138,14 +138,14 @@ def test_option_scale_with_micro_suffix_warns(write):
 
 def test_level_one_stands_in_for_bsim_once_per_card(write):
     text = ("t\n.subckt nw d g s b w=1\nMnw d g s b nb w={w*1u} l=1u\n"
-            ".model nb nmos level=54 vth0=0.5 u0=0.03 toxe=4n k1=0.5 lambda=0\n.ends\n"
+            ".model nb nmos level=49 vth0=0.5 u0=0.03 toxe=4n k1=0.5 lambda=0\n.ends\n"
             "Vdd vdd 0 1.8\nVg g 0 0.9\nRd vdd d 5k\n"
             + "".join(f"xm{k} d g 0 0 nw w={k}\n" for k in range(1, 4)))
     op = operating_point(read_netlist(write(text)))
     said = [w for w in op.warnings if "level 1 stands in" in w]
     assert len(said) == 1  # three instances, three per-instance copies of the card: one warning
-    assert "model nb (level 54" in said[0] and "VTH0 used as VTO" in said[0]
-    # BSIM4's LAMBDA (velocity overshoot) is not taken as the level-1 LAMBDA: a rough Early
+    assert "model nb (level 49" in said[0] and "VTH0 used as VTO" in said[0]
+    # a BSIM card's LAMBDA (BSIM4's velocity overshoot) is not taken as the level-1 LAMBDA: a rough Early
     # voltage of 10 V per micron of L stands in (L = 1 um here: LAMBDA = 0.1/V)
     assert "LAMBDA=0.1/V" in said[0]
     gds = op.device("xm1").values["gds"]

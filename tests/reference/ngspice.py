@@ -34,6 +34,25 @@ def version() -> str:
     return found.group(0) if found else out.strip().splitlines()[0]
 
 
+def run_control(netlist: str, lines: list[str], timeout: float = 600) -> dict[str, float]:
+    """Run ``netlist`` with a control block of ``lines`` (printing at 12 digits); every
+    ``name = value`` line the simulator prints, by name in lower case (a vector printed after
+    an AC analysis reads as ``ac1.name``)."""
+    folder = Path(tempfile.mkdtemp(prefix="tauscan-ngspice-"))
+    try:
+        (folder / ".spiceinit").write_text(SPICEINIT)
+        control = "\n".join([".control", "set numdgt=12", *lines, ".endc", ".end"])
+        (folder / "run.sp").write_text(netlist.rstrip() + "\n" + control + "\n")
+        done = subprocess.run([need_ngspice(), "-b", "run.sp"], cwd=folder, capture_output=True, text=True,
+                              timeout=timeout, env={"HOME": str(folder), "PATH": "/usr/bin:/bin"})
+        values = {m.group(1).lower(): float(m.group(2)) for m in _VALUE.finditer(done.stdout)}
+        if not values:  # (a batch run with no .print line ends with status 1 even when it worked)
+            raise AssertionError(f"ngspice printed nothing:\n{done.stdout[-2000:]}\n{done.stderr[-2000:]}")
+        return values
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)
+
+
 def run(netlist: str, prints: list[str], analysis: str = "op", timeout: float = 300) -> dict[str, float]:
     """Run ``netlist`` (its text, without ``.end``) with a control block doing ``analysis`` and
     printing ``prints`` (vectors such as ``v(out)`` or ``@m.xm1.msky130_fd_pr__nfet_01v8[gm]``);

@@ -251,15 +251,16 @@ class Bsim4Group:
 
     def _junction_cap(self, side: str, v: np.ndarray) -> np.ndarray:
         """Junction capacitance: bottom, sidewall and gate-edge sidewall parts, each
-        Cz (1 - V/PB)^-MJ in reverse bias and its tangent line in forward bias."""
+        Cz (1 - V/PB)^-MJ in reverse bias (a part with Cz <= 0 left out) and, at zero and
+        forward bias, the sum of the parts' tangent lines Cz (1 + MJ V/PB)."""
         p = self.p
         total = np.zeros_like(v)
         for part in ("", "sw", "swg"):
             cz = p[f"cz{part}_{side}"]
             pb = p[f"pb{part}_{side}"]
             mj = p[f"mj{part}_{side}"]
-            rev = np.power(np.maximum(1.0 - v / pb, 1e-12), -mj)
-            total += cz * np.where(v < 0, rev, 1.0 + mj * v / pb)
+            rev = np.where(cz > 0, cz * np.power(np.maximum(1.0 - v / pb, 1e-12), -mj), 0.0)
+            total += np.where(v < 0, rev, cz * (1.0 + mj * v / pb))
         return total * p["m"]
 
 
@@ -289,7 +290,7 @@ def _stamp_rows(cur, jac, t, current: Dual, a: np.ndarray, b: int) -> None:
         jac[rows, term, S] += sign * ds
 
 
-#: the report's pair names over the matrix's terminals (METHOD section 8)
+#: the report's pair names over the matrix's terminals (the split of a charge-based matrix)
 CAPS_PLAIN = {"cgd": ("g", "d_phys"), "cgs": ("g", "s_phys"), "cgb": ("g", "b"), "cdb": ("d_phys", "b"),
               "csb": ("s_phys", "b"), "cds": ("d_phys", "s_phys")}
 CAPS_BODY = {"cgd": ("g", "d_phys"), "cgs": ("g", "s_phys"), "cgb": ("g", "b"), "cdb": ("d_phys", "db"),

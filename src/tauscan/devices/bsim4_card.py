@@ -357,7 +357,10 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
         area = np.where(np.isnan(area), 0.0, area)
         # with no DMCG family the manual's isolated-diffusion geometry gives P = Weffcj per finger
         perim = np.where(np.isnan(perim), c["weffcj"] * nf, perim)
-        peff = np.where(c["permod"] == 0, perim, np.maximum(perim - c["weffcj"] * nf, 0.0))
+        # PERMOD = 1: the perimeter given includes the gate edge, which is taken off.  The result
+        # is not clipped at zero (as the reference implementation does not): a negative sidewall
+        # part then lowers the zero- and forward-bias capacitance only (see the junction law)
+        peff = np.where(c["permod"] == 0, perim, perim - c["weffcj"] * nf)
         c["a" + s + "eff"], c["p" + s + "eff"] = area, peff
         j = "s" if s == "s" else "d"
         t_arg = eg0 / vtm0 - eg / vtm + col("xti" + j) * np.log(ratio)

@@ -1,0 +1,120 @@
+"""SKY130's BSIM4 devices against the reference simulator (Debian's ngspice, the Berkeley
+implementation of the published BSIM4 equations), point by point.
+
+One netlist per (device type, corner, temperature) holds every geometry and bias of the grid,
+four copies of each biased device: copy j drives terminal j with a 1 V AC source, so the
+terminal currents of an AC analysis at 1 MHz give column j of the terminal capacitance matrix
+(C_ij = Im(I_i) / omega).  The same netlist, without its control block, is what tauscan reads.
+Bias points, geometries and the netlist are our own; the cards are the library's.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from tauscan.op import operating_point
+from tauscan.reader import read_netlist
+from tests.reference import ngspice
+
+#: geometries (W um, L um, nf, m): short, long, narrow, wide, fingers and copies
+GEOMETRIES = [(0.42, 0.15, 1, 1), (7.0, 0.15, 1, 1), (1.0, 0.5, 1, 1), (0.42, 4.0, 1, 1), (5.0, 8.0, 1, 1),
+              (4.0, 0.25, 2, 3)]
+#: normalized biases (V): subthreshold to strong inversion, linear to saturation, body bias
+VGS = (0.25, 0.6, 1.0, 1.8)
+VDS = (0.05, 0.5, 1.8)
+VBS = (0.0, -0.8)
+TERMINALS = "dgsb"
+FREQ = 1e6
+#: (corner, temperature C): typical at 27 and 85 C, and a slow corner
+SETTINGS = [("tt", 27.0), ("tt", 85.0), ("ss", 27.0)]
+
+
+def _points():
+    return [(geo, (vg, vd, vb)) for geo in GEOMETRIES for vg in VGS for vd in VDS for vb in VBS]
+
+
+def _netlist(lib, kind: str, corner: str, temp: float) -> tuple[str, list]:
+    sign = 1.0 if kind == "nfet" else -1.0
+    lines = [f"* SKY130 {kind} grid for the reference comparison (our own)", f'.lib "{lib}" {corner}', f".temp {temp:g}"]
+    points = _points()
+    for k, ((w, l, nf, m), (vg, vd, vb)) in enumerate(points):
+        for j, t in enumerate(TERMINALS):
+            name = f"{k}_{t}"
+            dc = {"d": sign * vd, "g": sign * vg, "s": 0.0, "b": sign * vb}
+            for x in TERMINALS:
+                ac = " ac 1" if x == t else ""
+                lines.append(f"v{x}{name} {x}{name} 0 dc {dc[x]:g}{ac}")
+            lines.append(f"xm{name} d{name} g{name} s{name} b{name} sky130_fd_pr__{kind}_01v8 w={w} l={l} nf={nf} "
+                         f"m={m} nrd=0 nrs=0")
+    return "\n".join(lines) + "\n", points
+
+
+def _reference(text: str, kind: str, points: list) -> dict[str, float]:
+    vec = f"msky130_fd_pr__{kind}_01v8"
+    control = ["op"]
+    for k in range(len(points)):
+        for q in ("id", "gm", "gds", "gmbs"):
+            control.append(f"print @m.xm{k}_d.{vec}[{q}]")
+    control.append(f"ac lin 1 {FREQ:g} {FREQ:g}")
+    for k in range(len(points)):
+        for t in TERMINALS:
+            for x in TERMINALS:
+                control.append(f"let q{k}_{t}{x} = imag(i(v{x}{k}_{t}))")
+        control.append("print " + " ".join(f"q{k}_{t}{x}" for t in TERMINALS for x in TERMINALS))
+    return ngspice.run_control(text, control)
+
+
+def _folded(dev) -> np.ndarray:
+    """tauscan's terminal matrix over the external d, g, s, b (the body network's internal nodes
+    folded into b: at 1 MHz its 50-ohm resistors are shorts against femtofarads)."""
+    order, cm = dev.cmatrix
+    place = {"d_phys": 0, "g": 1, "s_phys": 2, "b": 3, "db": 3, "sb": 3}
+    out = np.zeros((4, 4))
+    for i, a in enumerate(order):
+        for j, b in enumerate(order):
+            out[place[a], place[b]] += cm[i, j]
+    return out
+
+
+@pytest.mark.parametrize("kind", ["nfet", "pfet"])
+@pytest.mark.parametrize("corner,temp", SETTINGS)
+def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corner, temp):
+    text, points = _netlist(sky130_lib, kind, corner, temp)
+    path = tmp_path / "grid.sp"
+    path.write_text(text + ".end\n")
+    ref = _reference(text, kind, points)
+    op = operating_point(read_netlist(str(path)))
+    vec = f"msky130_fd_pr__{kind}_01v8"
+    worst_c = None
+    worst = {"id": (0.0, ""), "gm": (0.0, ""), "gds": (0.0, ""), "gmbs": (0.0, ""), "C": (0.0, "")}
+    omega = 2.0 * math.pi * FREQ
+    for k, (geo, bias) in enumerate(points):
+        where = f"W/L/nf/m={geo} vgs/vds/vbs={bias}"
+        dev = op.device(f"xm{k}_d")
+        assert dev.family == "bsim4"
+        r = {q: ref[f"@m.xm{k}_d.{vec}[{q}]"] for q in ("id", "gm", "gds", "gmbs")}
+        ours = {"id": abs(dev.current), "gm": dev.values["gm"], "gds": dev.values["gds"], "gmbs": dev.values["gmb"]}
+        for q in ours:  # (the simulator's vectors include the m copies, as ours do)
+            theirs = abs(r[q]) if q == "id" else r[q]
+            if q == "id" and theirs <= 1e-9:
+                continue
+            scale = abs(theirs) if q == "id" else max(abs(theirs), 1e-3 * abs(ours["gm"]) + 1e-15)
+            err = abs(ours[q] - theirs) / scale
+            if err > worst[q][0]:
+                worst[q] = (err, where)
+        theirs_c = np.array([[-ref.get(f"ac1.q{k}_{t}{x}", ref.get(f"q{k}_{t}{x}", math.nan)) / omega for t in TERMINALS] for x in TERMINALS])
+        mine = _folded(op.device(f"xm{k}_d"))
+        err = float(np.abs(mine - theirs_c).max() / np.abs(theirs_c).max())
+        if err > worst["C"][0]:
+            worst["C"] = (err, where)
+            worst_c = (mine, theirs_c)
+    print(f"\n{kind} {corner} {temp:g} C against {ngspice.version()}: worst relative errors")
+    for q, (err, where) in worst.items():
+        print(f"  {q:5s} {err:9.2e}  at {where}")
+    limits = {"id": 0.01, "gm": 0.02, "gds": 0.02, "gmbs": 0.02, "C": 0.03}
+    for q, (err, where) in worst.items():
+        assert err <= limits[q], f"{q}: {err:.3g} at {where}" + (
+            f"\nours (fF):\n{worst_c[0] * 1e15}\nreference (fF):\n{worst_c[1] * 1e15}" if q == "C" else "")

@@ -67,6 +67,19 @@ def test_regenerative_capacitor_across_a_non_inverting_gain():
     assert "regenerative-cap" not in rules_of(lint(build("cs", stage())))
 
 
+def test_a_negative_part_across_a_non_inverting_gain_is_not_regenerative():
+    # the same gain of +2 across -1 pF (a negative pair of a charge-based device's split matrix):
+    # the input sees C (1 - 2) = +1 pF, a positive capacitance, so the rule stays silent
+    circuit = build("regen", [
+        ("vin", "v", ("src", "0"), 0.0, {"ac": 1.0}),
+        ("rs", "r", ("src", "a"), 10e3),
+        ("e1", "e", ("b", "0", "a", "0"), 2.0),
+        ("cf", "c", ("a", "b"), -1e-12),
+        ("ca", "c", ("a", "0"), 5e-12),
+    ])
+    assert "regenerative-cap" not in rules_of(lint(circuit))
+
+
 def test_the_open_circuit_sum_the_rules_see_is_the_closed_form():
     from tauscan.analysis import AnalysisSettings, analyze_network
     from tauscan.linear import linearize

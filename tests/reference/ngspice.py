@@ -71,3 +71,23 @@ def run(netlist: str, prints: list[str], analysis: str = "op", timeout: float = 
         return values
     finally:
         shutil.rmtree(folder, ignore_errors=True)
+
+
+def ac_magnitude(netlist: str, node: str, start: float, stop: float, per_decade: int = 100,
+                 timeout: float = 600) -> tuple[list[float], list[float]]:
+    """An AC analysis from ``start`` to ``stop`` Hz: the frequencies and |v(node)|."""
+    folder = Path(tempfile.mkdtemp(prefix="tauscan-ngspice-"))
+    try:
+        (folder / ".spiceinit").write_text(SPICEINIT)
+        control = "\n".join([".control", f"ac dec {per_decade} {start:g} {stop:g}",
+                              f"wrdata ac.txt vm({node})", ".endc", ".end"])
+        (folder / "run.sp").write_text(netlist.rstrip() + "\n" + control + "\n")
+        done = subprocess.run([need_ngspice(), "-b", "run.sp"], cwd=folder, capture_output=True, text=True,
+                              timeout=timeout, env={"HOME": str(folder), "PATH": "/usr/bin:/bin"})
+        table = folder / "ac.txt"
+        if not table.exists():
+            raise AssertionError(f"ngspice wrote no AC table:\n{done.stdout[-2000:]}\n{done.stderr[-2000:]}")
+        rows = [line.split() for line in table.read_text().splitlines() if line.strip()]
+        return [float(r[0]) for r in rows], [float(r[1]) for r in rows]
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)

@@ -138,7 +138,9 @@ def bandwidth_floor(ctx) -> list[Finding]:
 def regenerative_cap(ctx) -> list[Finding]:
     out = []
     for cap in ctx.analysis.capacitors:
-        if cap.klass == "regenerative" and cap.name not in ctx.waivers:
+        # a negative part of a charge-based device's matrix across K >= 1 presents C (1 - K) > 0
+        # at its input: no negative capacitance, nothing regenerative to warn about
+        if cap.klass == "regenerative" and cap.farads > 0 and cap.name not in ctx.waivers:
             out.append(Finding(
                 "regenerative-cap", ctx.level("regenerative-cap"), cap.file, cap.line, cap.name,
                 "{} spans a gain of {:.3g} from {} to {}: its input sees a negative capacitance (positive feedback)",

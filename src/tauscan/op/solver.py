@@ -148,7 +148,11 @@ class DCSolver:
             try:
                 xr = self._lu.factor(a).solve(rhs)
             except RuntimeError:
-                raise self._singular(a) from None
+                if iteration == 0:
+                    raise self._singular(a) from None
+                # singular only at a Newton iterate (a node whose devices all went off at once):
+                # not the circuit's structure, so the continuation strategies take over
+                raise _NotConverged(x, dx, step) from None
             if not np.all(np.isfinite(xr)):
                 raise _NotConverged(x, dx, step)
             x_new = np.concatenate([[0.0], xr])

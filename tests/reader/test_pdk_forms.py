@@ -184,3 +184,20 @@ def test_a_wrapped_device_stands_at_its_instance_line(write, tmp_path):
     assert run.lint.waived.get("xm1:cgd") == "overlap accepted by design"
     cap = next(x for x in run.analysis.capacitors if x.name == "xm1:cgd")
     assert (cap.file, cap.line) == (path, 6)
+
+
+def test_a_wrapper_card_is_shared_unless_it_names_a_differing_instance_parameter(write):
+    # our own wrapper: card 'fixed' names nothing of the instance, card 'sized' names its rdsw
+    # parameter (computed from w): equal w share one Model, another w gets its own
+    text = ("t\n.subckt dev d g s b w=1\n.param rw={100/w}\nm1 d g s b {kind} w={w*1u} l=1u\n"
+            ".model fixed nmos level=1 vto=0.5 kp=100u\n.model sized nmos level=1 vto=0.5 kp=100u rd={rw}\n.ends\n"
+            "Vdd vdd 0 1.8\nVg g 0 1\n")
+    for kind in ("fixed", "sized"):
+        body = text.replace("{kind}", kind) + "".join(f"xm{k} vdd g 0 0 dev w={w}\n" for k, w in enumerate((1, 1, 2)))
+        c = read_netlist(write(body, f"{kind}.sp"))
+        names = [c.element(f"xm{k}").model for k in range(3)]
+        if kind == "fixed":
+            assert names == ["dev/fixed"] * 3
+        else:
+            assert names[0] == names[1] != names[2]
+            assert c.models[names[0]].params["rd"] == 100.0 and c.models[names[2]].params["rd"] == 50.0

@@ -31,6 +31,8 @@ _NUMBERS_MAX = 200_000
 _MISSING = object()
 
 #: A bin limit written ``key = number`` on a model card (for choosing a bin without parsing it).
+#: an identifier in a card's text (parameter names may hold dots)
+_IDENT = re.compile(r"[A-Za-z_][\w.]*")
 _BIN_LIMIT = re.compile(r"(?<![\w.])(lmin|lmax|wmin|wmax)\s*=\s*([^\s=(){}'\",]*)", re.I)
 
 #: Deepest chain of nested subcircuit instances.
@@ -188,7 +190,12 @@ class Flattener:
         #: one dictionary (elements' parameters are never changed once read)
         self.param_sets: dict[str, dict[str, float]] = {}
         #: (instance prefix, bin card name) -> its (lmin, lmax, wmin, wmax)
-        self.bin_limits: dict[tuple[str, str], tuple[float, float, float, float]] = {}
+        self.bin_limits: dict[tuple, tuple[float, float, float, float]] = {}
+        #: the identifiers a model card's text holds, per (definition, card name)
+        self.card_words: dict[tuple[int, str], frozenset[str]] = {}
+        #: a card's sharing key -> its flat name; how many flat names a card has
+        self.shared_models: dict[tuple, str] = {}
+        self.shared_count: dict[tuple[int, str], int] = {}
         #: ``.option scale`` (geometry written in its units), set with the other options
         self.scale = 1.0
         #: MOSFETs whose scaled W or L is below 1 nm: (name, W, L)
@@ -216,11 +223,46 @@ class Flattener:
             if instance is None:
                 return None, True
             name = self._bin(owner, host, name, instance)
-        flat = host.prefix + name
+        # a card inside a subcircuit is the same card in every instance whose parameters it
+        # names have the same values: one Model per such set of values, named by its definition
+        # (a foundry's device wrapper holds such cards; 10^4 wrapped devices of a few sizes then
+        # evaluate each card a few times)
+        if host.parent is not None:
+            key = self._sharing_key(owner, name, host)
+            flat = self.shared_models.get(key)
+            if flat is None:
+                count = self.shared_count.get(key[:2], 0)
+                self.shared_count[key[:2]] = count + 1
+                flat = self.shared_models[key] = f"{owner.name}/{name}" + (f"~{count + 1}" if count else "")
+        else:
+            flat = host.prefix + name
         if flat not in self.circuit.models:
             fields, card = owner.model_fields(name)
             self.circuit.models[flat] = self._model(flat, fields, card, host, name)
         return flat, binned
+
+    def _sharing_key(self, owner: Definition, name: str, host: Frame) -> tuple:
+        """``(definition, card, values)``: the values, in ``host``, of the parameters local to the
+        instances that model card ``name`` of ``owner`` names (the top level's are the same for
+        every instance)."""
+        key = (id(owner), name)
+        words = self.card_words.get(key)
+        if words is None:
+            words = self.card_words[key] = frozenset(w.lower() for w in _IDENT.findall(owner.models[name][1].text))
+        local: set[str] = set()
+        frame: Frame | None = host
+        while frame is not None and frame.parent is not None:
+            d = frame.definition
+            local.update(words.intersection(d.defaults), words.intersection(d.params),
+                         words.intersection(frame.scope.values))
+            frame = frame.parent
+        values = []
+        for word in sorted(local):
+            try:
+                values.append((word, host.scope.get(word)))
+            except (KeyError, TauscanError):
+                values.append((word, host.prefix))  # not evaluable here: this instance's own card
+        return (id(owner), name, tuple(values))
 
     def _bin(self, owner: Definition, host: Frame, base: str, instance: dict[str, float]) -> str:
         """The bin of model ``base`` for an element's geometry: ``lmin <= L < lmax`` and
@@ -232,10 +274,15 @@ class Flattener:
         width = (instance["w"] * s if "w" in instance else DEFAULT_MOS_WIDTH) / max(instance.get("nf", 1.0), 1.0)
         ranges = []
         for name in owner.bins[base]:
-            key = (host.prefix, name)
-            limits = self.bin_limits.get(key)
+            # limits written as plain numbers are the same in every instance of the owner: one
+            # entry per card (a netlist of 10^4 wrapped devices reads each bin card's text once)
+            limits = self.bin_limits.get((id(owner), name))
             if limits is None:
-                limits = self.bin_limits[key] = self._limits(owner, name, host)
+                key = (host.prefix, name)
+                limits = self.bin_limits.get(key)
+                if limits is None:
+                    limits, plain = self._limits(owner, name, host)
+                    self.bin_limits[(id(owner), name) if plain else key] = limits
             lmin, lmax, wmin, wmax = limits
             if _within(length, lmin, lmax) and _within(width, wmin, wmax):
                 return name
@@ -250,22 +297,23 @@ class Flattener:
             f"W/nf {eng(lo_w, 'm')} to {eng(hi_w, 'm')})")
 
     @staticmethod
-    def _limits(owner: Definition, name: str, host: Frame) -> tuple[float, float, float, float]:
+    def _limits(owner: Definition, name: str, host: Frame) -> tuple[tuple[float, float, float, float], bool]:
         """``(lmin, lmax, wmin, wmax)`` of a bin card, evaluated alone (not the whole card): read
-        off its text when they are plain numbers, else from its parsed fields."""
+        off its text when they are plain numbers (then also True: the same in every instance),
+        else from its parsed fields (False)."""
         card = owner.models[name][1]
         found = {"lmin": 0.0, "lmax": math.inf, "wmin": 0.0, "wmax": math.inf}
         written = {m.group(1).lower(): m.group(2) for m in _BIN_LIMIT.finditer(card.text)}
         numbers = {key: _plain_number(text.lower()) for key, text in written.items()}
         if None not in numbers.values() and len(written) == len(_BIN_LIMIT.findall(card.text)):
             found.update(numbers)
-            return found["lmin"], found["lmax"], found["wmin"], found["wmax"]
+            return (found["lmin"], found["lmax"], found["wmin"], found["wmax"]), True
         fields, card = owner.model_fields(name)
         for f in fields[1:]:
             for item in (f.items if type(f) is Group else (f,)):
                 if type(item) is Param and item.key in found:
                     found[item.key] = host.value(item.value, card)
-        return found["lmin"], found["lmax"], found["wmin"], found["wmax"]
+        return (found["lmin"], found["lmax"], found["wmin"], found["wmax"]), False
 
     def _model(self, flat: str, fields: list[Field], card: Card, frame: Frame, written: str) -> Model:
         mtype = fields[0].text.lower()

@@ -107,22 +107,25 @@ class Bsim4Group:
         cur = np.zeros((n, 6))
         jac = np.zeros((n, 6, 6))
         fwd = ch.forward
-        i_drain = Dual(np.where(fwd, ch.ids.v, -ch.ids.v), np.where(fwd, ch.ids.d, -ch.ids.d))
-        _stamp(cur, jac, t, i_drain, D, S)
+        sign = np.where(fwd, 1.0, -1.0)
+        _stamp(cur, jac, t, Dual(ch.ids.v * sign, ch.ids.d * sign), D, S)
         sub = ch.isub
-        into = np.where(fwd, D, S)
-        _stamp_rows(cur, jac, t, sub, into, B)
-        _stamp(cur, jac, t, ch.igidl, D, B)
-        _stamp(cur, jac, t, ch.igisl, S, B)
+        if np.any(sub.v):  # into the effective drain, out of the body
+            on = fwd.astype(float)
+            _stamp(cur, jac, t, Dual(sub.v * on, sub.d * on), D, B)
+            _stamp(cur, jac, t, Dual(sub.v * (1.0 - on), sub.d * (1.0 - on)), S, B)
+        for leak, term in ((ch.igidl, D), (ch.igisl, S)):
+            if np.any(leak.v):
+                _stamp(cur, jac, t, leak, term, B)
         for side, j_term, c_term, vj in (("s", SB, S, vbs_j), ("d", DB, D, vbd_j)):
             i, g = self._junction(side, vj)
-            rows = np.arange(n)
-            cur[rows, j_term] += t * i
-            cur[rows, c_term] -= t * i
-            jac[rows, j_term, j_term] += g
-            jac[rows, j_term, c_term] -= g
-            jac[rows, c_term, j_term] -= g
-            jac[rows, c_term, c_term] += g
+            ti = t * i
+            cur[:, j_term] += ti
+            cur[:, c_term] -= ti
+            jac[:, j_term, j_term] += g
+            jac[:, j_term, c_term] -= g
+            jac[:, c_term, j_term] -= g
+            jac[:, c_term, c_term] += g
         v = x[self.nodes]
         used = np.empty((n, 6))
         used[:, S] = v[:, S]
@@ -272,22 +275,24 @@ def _region(vov: float, vds_e: float, vdsat: float) -> str:
 
 
 def _stamp(cur, jac, t, current: Dual, a: int, b: int) -> None:
-    """A current entering terminal ``a`` and leaving at ``b`` (normalized; derivatives over
-    vgs, vds, vbs of the channel)."""
-    rows = np.arange(len(current.v))
-    _stamp_rows(cur, jac, t, current, np.full(len(rows), a), b)
-
-
-def _stamp_rows(cur, jac, t, current: Dual, a: np.ndarray, b: int) -> None:
-    rows = np.arange(len(current.v))
+    """A current entering terminal ``a`` and leaving at ``b`` (normalized; its derivatives over
+    vgs, vds, vbs of the channel): its terminal currents and Jacobian columns."""
     dg, dd, db = current.d
     ds = -(dg + dd + db)
-    for term, sign in ((a, 1.0), (np.full(len(rows), b), -1.0)):
-        cur[rows, term] += sign * t * current.v
-        jac[rows, term, G] += sign * dg
-        jac[rows, term, D] += sign * dd
-        jac[rows, term, B] += sign * db
-        jac[rows, term, S] += sign * ds
+    i = t * current.v
+    for term, sign in ((a, 1.0), (b, -1.0)):
+        cur[:, term] += sign * i
+        row = jac[:, term]
+        if sign > 0:
+            row[:, G] += dg
+            row[:, D] += dd
+            row[:, B] += db
+            row[:, S] += ds
+        else:
+            row[:, G] -= dg
+            row[:, D] -= dd
+            row[:, B] -= db
+            row[:, S] -= ds
 
 
 #: the report's pair names over the matrix's terminals (the split of a charge-based matrix)

@@ -57,13 +57,14 @@ def _half_csch2(x: Dual) -> Dual:
 
 def _floor_one_plus(t: Dual) -> Dual:
     """1 + t, smoothly kept above 0 for t < -0.5 (the manual's (1 + 3t) / (3 + 8t))."""
-    return ad.where(t.v >= -0.5, 1.0 + t, (1.0 + 3.0 * t) / (3.0 + 8.0 * ad.where(t.v >= -0.5, -0.25, t)))
+    ok = t.v >= -0.5
+    return ad.where(ok, lambda: 1.0 + t, lambda: (1.0 + 3.0 * t) / (3.0 + 8.0 * ad.where(ok, -0.25, t)))
 
 
 def _keta_factor(t: Dual) -> Dual:
     """1 / (1 + t), continued as (17 + 20 t) / (0.8 + t) below t = -0.9 (the manual's guard)."""
     ok = t.v >= -0.9
-    return ad.where(ok, 1.0 / (1.0 + ad.where(ok, t, 0.0)), (17.0 + 20.0 * t) / (0.8 + ad.where(ok, -0.85, t)))
+    return ad.where(ok, lambda: 1.0 / (1.0 + ad.where(ok, t, 0.0)), lambda: (17.0 + 20.0 * t) / (0.8 + ad.where(ok, -0.85, t)))
 
 
 def evaluate(p: Columns, vgs: Dual, vds: Dual, vbs: Dual, charges: bool) -> Channel:
@@ -82,11 +83,18 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     phi, sqrtphi = p["phi"], p["sqrtphi"]
 
     # -- effective body bias ------------------------------------------------------------------
+    # Everything up to the threshold's DIBL term depends on the body bias alone: it is evaluated
+    # with one derivative (d/dvbs) and carried over to the three by the chain rule (promote).
+    u = Dual(vbs.v.copy(), np.ones((1, len(vbs.v))))
+
+    def promote(x: Dual) -> Dual:
+        return Dual(x.v, vbs.d * x.d[0])
+
     vbsc = p["vbsc"]
-    t0 = vbs - vbsc - 0.001
+    t0 = u - vbsc - 0.001
     t1 = ad.sqrt(t0 * t0 - 0.004 * vbsc)
     pos = t0.v >= 0.0
-    vbseff = ad.where(pos, vbsc + 0.5 * (t0 + t1), vbsc * (1.0 + (-0.002) / (t1 - t0)))
+    vbseff = ad.where(pos, lambda: vbsc + 0.5 * (t0 + t1), lambda: vbsc * (1.0 + (-0.002) / (t1 - t0)))
     t9 = 0.95 * phi
     t0 = t9 - vbseff - 0.001
     vbseff = t9 - 0.5 * (t0 + ad.sqrt(t0 * t0 + 0.004 * t9))
@@ -109,16 +117,26 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     vth_narrow = p["toxe"] * phi / (weff0 + p["w0"])
     t3 = p["eta0"] + p["etab"] * vbseff
     small = t3.v < 1e-4
-    t3 = ad.where(small, (2e-4 - t3) / (3.0 - 2e4 * ad.where(small, t3, 0.0)), t3)
-    dibl = t3 * p["theta0vb0"] * vds
+    t3 = ad.where(small, lambda: (2e-4 - t3) / (3.0 - 2e4 * ad.where(small, t3, 0.0)), t3)
     lpe_vb = np.sqrt(1.0 + p["lpeb"] / leff)
-    vth = (p["vth0_t"] + (p["k1ox"] * sqrtphis - p["k1"] * sqrtphi) * lpe_vb - p["k2ox"] * vbseff - delt_vth - t2
-           + (p["k3"] + p["k3b"] * vbseff) * vth_narrow + t1 - dibl)
+    vth_body = (p["vth0_t"] + (p["k1ox"] * sqrtphis - p["k1"] * sqrtphi) * lpe_vb - p["k2ox"] * vbseff - delt_vth - t2
+                + (p["k3"] + p["k3b"] * vbseff) * vth_narrow + t1)
+    # subthreshold swing factor n, its body-bias part
+    n_body = (p["nfactor"] * EPSSI / xdep + (p["cdsc"] + p["cdscb"] * vbseff) * theta0 + p["cit"]) / p["coxe"]
+    # bulk charge factor Abulk, its body-bias parts
+    t1 = 0.5 * p["k1ox"] * lpe_vb / sqrtphis + p["k2ox"] - p["k3b"] * vth_narrow
+    t5 = leff / (leff + 2.0 * ad.sqrt(p["xj"] * xdep))
+    abulk0_body = 1.0 + t1 * (p["a0"] * t5 + p["b0"] / (weff0 + p["b1"]))
+    abulk_slope = t1 * (p["ags"] * p["a0"] * t5 * t5 * t5)
+    keta = _keta_factor(p["keta"] * vbseff)
 
-    # -- subthreshold swing factor n -------------------------------------------------------
-    tmp2 = p["nfactor"] * EPSSI / xdep
-    tmp3 = p["cdsc"] + p["cdscb"] * vbseff + p["cdscd"] * vds
-    n = _floor_one_plus((tmp2 + tmp3 * theta0 + p["cit"]) / p["coxe"])
+    vth = promote(vth_body) - promote(t3) * p["theta0vb0"] * vds
+    n_arg = promote(n_body)
+    if np.any(p["cdscd"]):
+        n_arg = n_arg + (p["cdscd"] / p["coxe"]) * vds * promote(theta0)
+    n = _floor_one_plus(n_arg)
+    vbseff = promote(vbseff)
+    sqrtphis = promote(sqrtphis)
 
     # -- pocket-implant threshold shift (DVTP0, DVTP1) ---------------------------------------
     if np.any(p["dvtp0"] > 0):
@@ -139,43 +157,44 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     soft = nvt * ad.log(1.0 + ad.exp(ad.where(big | tiny, 0.0, arg)))
     num = ad.where(big, mstar * vgst, ad.where(tiny, vtm * np.log(1.0 + MIN_EXP) * n, soft))
     arg2 = (p["voffcbn"] - (1.0 - mstar) * vgst) / nvt
-    e2 = _clamped_exp(arg2, -EXP_THRESHOLD, EXP_THRESHOLD)
-    e2 = ad.where(arg2.v < -EXP_THRESHOLD, MIN_EXP, ad.where(arg2.v > EXP_THRESHOLD, MAX_EXP, e2))
+    inside = np.abs(arg2.v) <= EXP_THRESHOLD
+    e2 = ad.where(inside, lambda: ad.exp(ad.where(inside, arg2, 0.0)),
+                  lambda: ad.const(np.where(arg2.v < 0, MIN_EXP, MAX_EXP), arg2))
     den = mstar + n * (p["coxe"] / p["cdep0"]) * e2
     vgsteff = num / den
 
     # -- effective width with its bias dependence --------------------------------------------
     t9 = sqrtphis - sqrtphi
-    weff = weff0 - 2.0 * (p["dwg"] * vgsteff + p["dwb"] * t9)
-    narrow = weff.v < 2e-8
-    weff = ad.where(narrow, 2e-8 * (4e-8 - weff) / (6e-8 - 2.0 * ad.where(narrow, weff, 0.0)), weff)
+    if np.any(p["dwg"]) or np.any(p["dwb"]):
+        weff = weff0 - 2.0 * (p["dwg"] * vgsteff + p["dwb"] * t9)
+        narrow = weff.v < 2e-8
+        weff = ad.where(narrow, lambda: 2e-8 * (4e-8 - weff) / (6e-8 - 2.0 * ad.where(narrow, weff, 0.0)), weff)
+    else:
+        weff = weff0
 
     # -- source/drain resistance inside the current equation (RDSMOD = 0) ---------------------
     t0 = 1.0 + p["prwg"] * vgsteff
-    t2 = 1.0 / t0 + p["prwb"] * t9
+    t2 = 1.0 / t0 + p["prwb"] * t9 if np.any(p["prwb"]) else 1.0 / t0
     rds = p["rdswmin"] + (t2 + ad.sqrt(t2 * t2 + 0.01)) * (p["rds0"] * 0.5)
 
-    # -- bulk charge factor Abulk ---------------------------------------------------------------
-    t1 = 0.5 * p["k1ox"] * lpe_vb / sqrtphis + p["k2ox"] - p["k3b"] * vth_narrow
-    tmp1 = leff + 2.0 * ad.sqrt(p["xj"] * xdep)
-    t5 = leff / tmp1
-    t2 = p["a0"] * t5 + p["b0"] / (weff0 + p["b1"])
-    abulk0 = 1.0 + t1 * t2
-    abulk = abulk0 - t1 * (p["ags"] * p["a0"] * t5 * t5 * t5) * vgsteff
+    # -- bulk charge factor Abulk (its body-bias parts above) -------------------------------------
+    abulk0 = promote(abulk0_body)
+    abulk = abulk0 - promote(abulk_slope) * vgsteff
     abulk0 = _floor_abulk(abulk0)
     abulk = _floor_abulk(abulk)
-    keta = _keta_factor(p["keta"] * vbseff)
+    keta = promote(keta)
     abulk = abulk * keta
     abulk0 = abulk0 * keta
 
     # -- mobility (MOBMOD = 0) ------------------------------------------------------------------
     toxe = p["toxe"]
     t3 = (vgsteff + vth + vth) / toxe
-    t12 = ad.sqrt(vth * vth + 0.0001)
-    t10 = toxe / (vgsteff + 2.0 * t12)
-    t5 = t3 * (p["ua"] + p["uc"] * vbseff + p["ub"] * t3) + p["ud"] * t10 * t10 * vth * vth
+    t5 = t3 * (p["ua"] + p["uc"] * vbseff + p["ub"] * t3)
+    if np.any(p["ud"]):
+        t10 = toxe / (vgsteff + 2.0 * ad.sqrt(vth * vth + 0.0001))
+        t5 = t5 + p["ud"] * t10 * t10 * vth * vth
     ok = t5.v >= -0.8
-    denomi = ad.where(ok, 1.0 + t5, (0.6 + t5) / (7.0 + 10.0 * ad.where(ok, 0.0, t5)))
+    denomi = ad.where(ok, lambda: 1.0 + t5, lambda: (0.6 + t5) / (7.0 + 10.0 * ad.where(ok, 0.0, t5)))
     ueff = p["u0temp"] / denomi
 
     # -- drain saturation voltage -------------------------------------------------------------
@@ -185,12 +204,17 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     esat = 2.0 * vsat / ueff
     esatl = esat * leff
     a1, a2 = p["a1"], p["a2"]
-    lam_pos_t0 = 1.0 - a2
-    lt1_ = lam_pos_t0 - a1 * vgsteff - 0.0001
-    lam_pos = a2 + lam_pos_t0 - 0.5 * (lt1_ + ad.sqrt(lt1_ * lt1_ + 0.0004 * lam_pos_t0))
-    lt1n = a2 + a1 * vgsteff - 0.0001
-    lam_neg = 0.5 * (lt1n + ad.sqrt(lt1n * lt1n + 0.0004 * a2))
-    lam = ad.where(a1 == 0.0, ad.const(a2, vgsteff), ad.where(a1 > 0.0, lam_pos, lam_neg))
+
+    def lam_pos():
+        t0 = 1.0 - a2
+        t1 = t0 - a1 * vgsteff - 0.0001
+        return a2 + t0 - 0.5 * (t1 + ad.sqrt(t1 * t1 + 0.0004 * t0))
+
+    def lam_neg():
+        t1 = a2 + a1 * vgsteff - 0.0001
+        return 0.5 * (t1 + ad.sqrt(t1 * t1 + 0.0004 * a2))
+
+    lam = ad.where(a1 == 0.0, lambda: ad.const(a2, vgsteff), lambda: ad.where(a1 > 0.0, lam_pos, lam_neg))
     vgst2vtm = vgsteff + 2.0 * vtm
     t9 = abulk * wvcoxrds
     t7 = vgst2vtm * t9
@@ -200,8 +224,8 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     t2 = vgst2vtm * (esatl + 2.0 * t6)
     t3 = ad.sqrt(t1 * t1 - 2.0 * t0 * t2)
     plain = (rds.v == 0.0) & (lam.v == 1.0)
-    vdsat_plain = esatl * vgst2vtm / (abulk * esatl + vgst2vtm)
-    vdsat = ad.where(plain, vdsat_plain, (t1 - t3) / ad.where(plain, 1.0, t0))
+    vdsat = ad.where(plain, lambda: esatl * vgst2vtm / (abulk * esatl + vgst2vtm),
+                     lambda: (t1 - t3) / ad.where(plain, 1.0, t0))
 
     # -- effective drain voltage -----------------------------------------------------------------
     delta = p["delta"]
@@ -226,10 +250,14 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
 
     # -- output resistance: pocket (FPROUT), CLM, DIBL, DITS, SCBE --------------------------
     fprout = p["fprout"]
-    fp = ad.where(fprout > 0, 1.0 / (1.0 + fprout * np.sqrt(leff) / vgst2vtm), ad.const(1.0, vgsteff))
-    t9 = p["pvag"] / esatl * vgsteff
-    okp = t9.v > -0.9
-    pvag_term = ad.where(okp, 1.0 + t9, (0.8 + t9) / (17.0 + 20.0 * ad.where(okp, 0.0, t9)))
+    fp = 1.0
+    if np.any(fprout > 0):
+        fp = ad.where(fprout > 0, lambda: 1.0 / (1.0 + fprout * np.sqrt(leff) / vgst2vtm), lambda: ad.const(1.0, vgsteff))
+    pvag_term = 1.0
+    if np.any(p["pvag"]):
+        t9 = p["pvag"] / esatl * vgsteff
+        okp = t9.v > -0.9
+        pvag_term = ad.where(okp, lambda: 1.0 + t9, lambda: (0.8 + t9) / (17.0 + 20.0 * ad.where(okp, 0.0, t9)))
     clm_on = (p["pclm"] > MIN_EXP) & (diff_vds.v > 1e-10)
     cclm = fp * pvag_term * (1.0 + rds * idl) * (leff + vdsat / esat) / (p["pclm"] * p["litl"])
     cclm = ad.where(clm_on, cclm, MAX_EXP)
@@ -238,23 +266,30 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     vadibl = (vgst2vtm - vgst2vtm * t8 / (vgst2vtm + t8)) / p["thetarout"]
     t7 = p["pdiblcb"] * vbseff
     okd = t7.v >= -0.9
-    vadibl = vadibl * ad.where(okd, 1.0 / (1.0 + ad.where(okd, t7, 0.0)), (17.0 + 20.0 * t7) / (0.8 + ad.where(okd, -0.85, t7)))
+    vadibl = vadibl * ad.where(okd, lambda: 1.0 / (1.0 + ad.where(okd, t7, 0.0)),
+                               lambda: (17.0 + 20.0 * t7) / (0.8 + ad.where(okd, -0.85, t7)))
     vadibl = ad.where(p["thetarout"] > MIN_EXP, vadibl * pvag_term, MAX_EXP)
     tmp4 = 1.0 - 0.5 * abulk * vdsat / vgst2vtm
     vasat = (esatl + vdsat + 2.0 * wvcoxrds * vgsteff * tmp4) / (2.0 / lam - 1.0 + wvcoxrds * abulk)
     va = vasat + vaclm
-    t0 = p["pditsd"] * vds
-    e = ad.where(t0.v > EXP_THRESHOLD, MAX_EXP, ad.exp(ad.where(t0.v > EXP_THRESHOLD, 0.0, t0)))
-    vadits = ad.where(p["pdits"] > MIN_EXP, (1.0 + (1.0 + p["pditsl"] * leff) * e) / p["pdits"] * fp, MAX_EXP)
+    dits = p["pdits"] > MIN_EXP
+
+    def _vadits():
+        t0 = p["pditsd"] * vds
+        e = ad.where(t0.v > EXP_THRESHOLD, MAX_EXP, lambda: ad.exp(ad.where(t0.v > EXP_THRESHOLD, 0.0, t0)))
+        return (1.0 + (1.0 + p["pditsl"] * leff) * e) / np.where(dits, p["pdits"], 1.0) * fp
+
+    vadits = ad.where(dits, _vadits, MAX_EXP) if np.any(dits) else None
     scbe_on = p["pscbe2"] > 0.0
     lim = p["pscbe1"] * p["litl"] / EXP_THRESHOLD
     far = diff_vds.v > lim
-    vascbe = ad.where(far, leff * ad.exp(p["pscbe1"] * p["litl"] / ad.where(far, diff_vds, 1.0)) / p["pscbe2"],
-                      ad.const(MAX_EXP * leff / np.where(scbe_on, p["pscbe2"], 1.0), vds))
+    vascbe = ad.where(far, lambda: leff * ad.exp(p["pscbe1"] * p["litl"] / ad.where(far, diff_vds, 1.0)) / p["pscbe2"],
+                      lambda: ad.const(MAX_EXP * leff / np.where(scbe_on, p["pscbe2"], 1.0), vds))
     vascbe = ad.where(scbe_on, vascbe, MAX_EXP)
     idsa = idl * (1.0 + diff_vds / vadibl)
     idsa = idsa * (1.0 + ad.log(va / vasat) / cclm)
-    idsa = idsa * (1.0 + diff_vds / vadits)
+    if vadits is not None:
+        idsa = idsa * (1.0 + diff_vds / vadits)
     ids = idsa * (1.0 + diff_vds / vascbe)
     scale = p["nf"] * p["m"]
     ids = ids * vdseff * scale
@@ -264,8 +299,12 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     on = (tmp > 0.0) & (p["beta0"] > 0.0)
     t2 = tmp / leff
     hot = diff_vds.v > p["beta0"] / EXP_THRESHOLD
-    t1 = ad.where(hot, t2 * diff_vds * ad.exp(-p["beta0"] / ad.where(hot, diff_vds, 1.0)), t2 * MIN_EXP * diff_vds)
-    isub = ad.where(on, t1 * idsa * vdseff * scale, 0.0 * vds)
+    if np.any(on):
+        t1 = ad.where(hot, lambda: t2 * diff_vds * ad.exp(-p["beta0"] / ad.where(hot, diff_vds, 1.0)),
+                      lambda: t2 * MIN_EXP * diff_vds)
+        isub = ad.where(on, lambda: t1 * idsa * vdseff * scale, lambda: 0.0 * vds)
+    else:
+        isub = 0.0 * vds
 
     igidl, igisl = _gate_induced_leakage(p, vgs_p, vds_p, vbs_p, scale)
     out = Channel(ids=ids, isub=isub, igidl=igidl, igisl=igisl, forward=fwd, vth=vth.v, vdsat=vdsat.v, vgsteff=vgsteff.v)
@@ -280,9 +319,15 @@ def _gate_induced_leakage(p: Columns, vgs: Dual, vds: Dual, vbs: Dual, scale: np
     junction is forward biased or a coefficient is not positive."""
     out = []
     vgd = vgs - vds
-    for side, v_dg, vbx in (("gidl", vds - _poly_depletion(p, vgs), vbs - vds),
-                            ("gisl", -vds - _poly_depletion(p, vgd), vbs)):
+    for side in ("gidl", "gisl"):
         a, b, c, e = p["a" + side], p["b" + side], p["c" + side], p["e" + side]
+        if not np.any(a > 0):
+            out.append(0.0 * vds)
+            continue
+        if side == "gidl":
+            v_dg, vbx = vds - _poly_depletion(p, vgs), vbs - vds
+        else:
+            v_dg, vbx = -vds - _poly_depletion(p, vgd), vbs
         t1 = (v_dg - e) / (3.0 * p["toxe"])
         on = (a > 0) & (b > 0) & (c > 0) & (t1.v > 0) & (vbx.v <= 0)
         t1s = ad.where(on, t1, 1.0)
@@ -297,7 +342,7 @@ def _gate_induced_leakage(p: Columns, vgs: Dual, vds: Dual, vbs: Dual, scale: np
 
 def _floor_abulk(a: Dual) -> Dual:
     low = a.v < 0.1
-    return ad.where(low, (0.2 - a) / (3.0 - 20.0 * ad.where(low, a, 0.0)), a)
+    return ad.where(low, lambda: (0.2 - a) / (3.0 - 20.0 * ad.where(low, a, 0.0)), a)
 
 
 def _poly_depletion(p: Columns, vgs: Dual) -> Dual:

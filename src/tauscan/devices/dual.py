@@ -53,7 +53,9 @@ class Dual:
 
     def __mul__(self, o):
         if isinstance(o, Dual):
-            return Dual(self.v * o.v, self.d * o.v + o.d * self.v)
+            d = self.d * o.v
+            d += o.d * self.v
+            return Dual(self.v * o.v, d)
         return Dual(self.v * o, self.d * o)
 
     __rmul__ = __mul__
@@ -62,7 +64,10 @@ class Dual:
         if isinstance(o, Dual):
             inv = 1.0 / o.v
             q = self.v * inv
-            return Dual(q, (self.d - o.d * q) * inv)
+            d = o.d * q
+            np.subtract(self.d, d, out=d)
+            d *= inv
+            return Dual(q, d)
         inv = 1.0 / o
         return Dual(self.v * inv, self.d * inv)
 
@@ -134,7 +139,19 @@ def atan(x: Dual) -> Dual:
 
 
 def where(cond: np.ndarray, a, b) -> Dual:
-    """Per device: a where cond holds, else b (either may be a constant)."""
+    """Per device: a where cond holds, else b (either may be a constant, or a function of no
+    arguments that gives the branch: it is evaluated only when some device takes it)."""
+    cond = np.asarray(cond)
+    if cond.all():
+        a = a() if callable(a) else a
+        if isinstance(a, Dual):
+            return a
+    elif not cond.any():
+        b = b() if callable(b) else b
+        if isinstance(b, Dual):
+            return b
+    a = a() if callable(a) else a
+    b = b() if callable(b) else b
     if not isinstance(a, Dual) and not isinstance(b, Dual):
         raise TypeError("where needs a Dual")
     like = a if isinstance(a, Dual) else b

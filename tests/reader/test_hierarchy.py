@@ -121,4 +121,5 @@ def test_subckt_params_keyword_and_local_models(write):
     c = read_netlist(write("t\n.subckt cell a b params: r=1k\n.model dl d is=1e-14\nD1 a b dl\nR1 a b r\n.ends\n"
                            "X1 n1 0 cell r=2k\nX2 n2 0 cell\n"))
     assert c.element("x1.r1").value == 2e3 and c.element("x2.r1").value == 1e3
-    assert c.element("x1.d1").model == "x1.dl" and "x1.dl" in c.models
+    # the local card names no instance parameter: one Model for both instances, named by its subcircuit
+    assert c.element("x1.d1").model == c.element("x2.d1").model == "cell/dl" and "cell/dl" in c.models

@@ -111,6 +111,10 @@ def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corne
         if err > worst["C"][0]:
             worst["C"] = (err, where)
             worst_c = (mine, theirs_c)
+    # the geometries fall in six different bins of the library (short, long, narrow, wide)
+    per_geometry = len(points) // len(GEOMETRIES)
+    bins = {op.circuit.models[op.device(f"xm{g * per_geometry}_d").model].card_name for g in range(len(GEOMETRIES))}
+    assert len(bins) == len(GEOMETRIES), bins
     print(f"\n{kind} {corner} {temp:g} C against {ngspice.version()}: worst relative errors")
     for q, (err, where) in worst.items():
         print(f"  {q:5s} {err:9.2e}  at {where}")

@@ -375,14 +375,16 @@ class Flattener:
         return self.circuit
 
     def _finish(self, element: Element, mult: float) -> None:
-        """``.option scale`` on a MOSFET's geometry (W and L times the scale, areas times its
-        square, perimeters times it, as SPICE simulators apply it), and ``mult`` parallel
+        """``.option scale`` on a MOSFET's geometry (W, L and the diffusion lengths SA, SB, SD times
+        the scale, areas times its square, perimeters times it, as SPICE simulators apply it), and ``mult`` parallel
         copies of an instance (``m=`` on the X lines above the element)."""
         kind = element.kind
         params = dict(element.params)  # (shared between elements: never changed in place)
         if kind == "m" and self.scale != 1.0:
             s = self.scale
-            for key, power in (("w", 1), ("l", 1), ("ad", 2), ("as", 2), ("pd", 1), ("ps", 1)):
+            # (the diffusion lengths SA, SB, SD of BSIM4's stress effect are lengths too)
+            for key, power in (("w", 1), ("l", 1), ("ad", 2), ("as", 2), ("pd", 1), ("ps", 1), ("sa", 1), ("sb", 1),
+                               ("sd", 1)):
                 if key in params:
                     params[key] *= s**power
             width, length = params.get("w", DEFAULT_MOS_WIDTH), params.get("l", DEFAULT_MOS_LENGTH)

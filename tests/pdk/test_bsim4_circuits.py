@@ -24,8 +24,7 @@ xm1 out g 0 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5 nf=2
 cl out 0 50f
 """
 
-OTA5 = """* five-transistor OTA, open loop, mirror load (our own)
-.lib "{lib}" tt
+FIRST_STAGE = """.lib "{{lib}}" tt
 vdd vdd 0 1.8
 vcm inp 0 dc 0.9 ac 1
 vref inn 0 dc 0.9
@@ -33,29 +32,20 @@ ib vdd tail 20u
 xmt tail tail 0 0 sky130_fd_pr__nfet_01v8 w=4 l=1
 xm0 s tail 0 0 sky130_fd_pr__nfet_01v8 w=4 l=1
 xm1 x inn s 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5
-xm2 out inp s 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5
+xm2 {out} inp s 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5
 xm3 x x vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5
-xm4 out x vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5
-cl out 0 200f
+xm4 {out} x vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5
 """
 
-MILLER = """* two-stage Miller OTA with a MIM compensation capacitor, open loop (our own)
-.lib "{lib}" tt
-vdd vdd 0 1.8
-vcm inp 0 dc 0.9 ac 1
-vref inn 0 dc 0.9
-ib vdd tail 20u
-xmt tail tail 0 0 sky130_fd_pr__nfet_01v8 w=4 l=1
-xm0 s tail 0 0 sky130_fd_pr__nfet_01v8 w=4 l=1
-xm1 x inn s 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5
-xm2 o1 inp s 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5
-xm3 x x vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5
-xm4 o1 x vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5
-xm5 out o1 vdd vdd sky130_fd_pr__pfet_01v8 w=20 l=0.5
-xm6 out tail 0 0 sky130_fd_pr__nfet_01v8 w=10 l=1
-xcc o1 out sky130_fd_pr__cap_mim_m3_1 w=10 l=10
-cl out 0 500f
-"""
+OTA5 = ("* five-transistor OTA, open loop, mirror load (our own)\n" + FIRST_STAGE.format(out="out")
+        + "cl out 0 200f\n")
+
+MILLER = ("* two-stage Miller OTA with a MIM compensation capacitor, open loop (our own)\n"
+          + FIRST_STAGE.format(out="o1")
+          + "xm5 out o1 vdd vdd sky130_fd_pr__pfet_01v8 w=20 l=0.5\n"
+          + "xm6 out tail 0 0 sky130_fd_pr__nfet_01v8 w=10 l=1\n"
+          + "xcc o1 out sky130_fd_pr__cap_mim_m3_1 w=10 l=10\n"
+          + "cl out 0 500f\n")
 
 CIRCUITS = {"common-source": (CS, ["g", "out"]), "five-transistor OTA": (OTA5, ["tail", "s", "x", "out"]),
             "two-stage Miller OTA": (MILLER, ["tail", "s", "x", "o1", "out"])}
@@ -84,7 +74,7 @@ def test_circuit_matches_the_reference_simulator(tmp_path, sky130_lib, name):
     freqs, mags = ngspice.ac_magnitude(text, "out", 1e2, 1e11)
     theirs = _f3db(freqs, mags)
     ours = result.f3db_hz
-    print(f"\n{name} against {ngspice.version()}: worst node error {worst_v * 1e3:.3f} mV; "
+    print(f"\n{name} against {ngspice.version()}: worst node error {worst_v * 1e6:.3f} uV; "
           f"-3 dB {ours:.4g} Hz against {theirs:.4g} Hz ({(ours / theirs - 1) * 100:+.2f} %)")
     assert worst_v < 1e-3
     assert ours == pytest.approx(theirs, rel=0.03)

@@ -156,16 +156,7 @@ class Bsim4Group:
         return i * m, g * m
 
     def _limit(self, vgs, vds, vbs, vbs_j, vbd_j, state):
-        old_gs, old_ds = state["vgs"], state["vds"]
-        von = state["vth"]
-        vgd, old_gd = vgs - vds, old_gs - old_ds
-        fwd = old_ds >= 0
-        f_vgs = physics.fetlim(vgs, old_gs, von)
-        f_vds = physics.limvds(f_vgs - vgd, old_ds)
-        r_vgd = physics.fetlim(vgd, old_gd, von)
-        r_vds = -physics.limvds(-(vgs - r_vgd), -old_ds)
-        new_gs = np.where(fwd, f_vgs, r_vgd + r_vds)
-        new_ds = np.where(fwd, f_vds, r_vds)
+        new_gs, new_ds = physics.limit_fet(vgs, vds, state["vgs"], state["vds"], state["vth"])
         new_bs = vbs  # the channel's body voltage crosses no junction: no limiting
         lim_bsj, _ = physics.pnjlim(vbs_j, state["vbs_j"], self.p["nvt_s"], self.vcrit["s"])
         lim_bdj, _ = physics.pnjlim(vbd_j, state["vbd_j"], self.p["nvt_d"], self.vcrit["d"])

@@ -176,19 +176,7 @@ class MosGroup:
 
     def _limit(self, vgs, vds, vbs, state):
         old_gs, old_ds, old_bs = state["vgs"], state["vds"], state["vbs"]
-        von = self.threshold(old_bs)
-        vgd = vgs - vds
-        old_gd = old_gs - old_ds
-        fwd = old_ds >= 0
-        # forward: limit VGS then VDS
-        f_vgs = physics.fetlim(vgs, old_gs, von)
-        f_vds = physics.limvds(f_vgs - vgd, old_ds)
-        # reverse: limit VGD then -VDS
-        r_vgd = physics.fetlim(vgd, old_gd, von)
-        r_vds = -physics.limvds(-(vgs - r_vgd), -old_ds)
-        r_vgs = r_vgd + r_vds
-        new_gs = np.where(fwd, f_vgs, r_vgs)
-        new_ds = np.where(fwd, f_vds, r_vds)
+        new_gs, new_ds = physics.limit_fet(vgs, vds, old_gs, old_ds, self.threshold(old_bs))
         # bulk junction
         old_bd = old_bs - old_ds
         lim_bs, _ = physics.pnjlim(vbs, old_bs, self.vt, self.vcrit)

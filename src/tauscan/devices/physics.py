@@ -232,6 +232,25 @@ def limvds(vnew: np.ndarray, vold: np.ndarray) -> np.ndarray:
 
 # -- temperature ----------------------------------------------------------------
 
+def limit_fet(vgs: np.ndarray, vds: np.ndarray, old_gs: np.ndarray, old_ds: np.ndarray,
+              von: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """A MOSFET's Newton step limited (normalized frame): forward (old VDS >= 0) VGS by
+    :func:`fetlim` then VDS by :func:`limvds`; reverse, VGD then -VDS.
+
+    Returns
+    -------
+    vgs, vds : ndarray
+        The limited voltages.
+    """
+    vgd = vgs - vds
+    fwd = old_ds >= 0
+    f_vgs = fetlim(vgs, old_gs, von)
+    f_vds = limvds(f_vgs - vgd, old_ds)
+    r_vgd = fetlim(vgd, old_gs - old_ds, von)
+    r_vds = -limvds(-(vgs - r_vgd), -old_ds)
+    return np.where(fwd, f_vgs, r_vgd + r_vds), np.where(fwd, f_vds, r_vds)
+
+
 def silicon_gap(temp_k: float) -> float:
     """Band gap of silicon, the Varshni form SPICE uses: 1.16 - 7.02e-4 T^2 / (T + 1108).
 

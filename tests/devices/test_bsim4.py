@@ -173,3 +173,13 @@ def test_the_operating_point_reports_what_designers_read(write):
     assert b["margin"] == pytest.approx(b["vds"] - b["vdsat"], rel=1e-12)
     # with ID ~ Vov (Vov + 2 Vt) (the long-channel limit above): gm/id = 1/Vov + 1/(Vov + 2 Vt)
     assert dev.values["gm"] / dev.current == pytest.approx(1 / 0.5 + 1 / (0.5 + 2 * 0.02585), rel=0.01)
+
+
+def test_no_substrate_current_when_beta0_is_not_positive():
+    # the manual switches impact ionization off for BETA0 <= 0 (ALPHA0 > 0 notwithstanding): no
+    # current, and no overflow into the derivatives at a small VDS - VDSEFF
+    ch, _ = _eval({**LONG, "alpha0": 1e-6, "beta0": -5.0}, np.array([1.0, 1.0]), np.array([0.05, 1.5]), 0.0)
+    assert np.all(ch.isub.v == 0.0) and np.all(ch.isub.d == 0.0)
+    assert np.all(np.isfinite(ch.ids.d))
+    on, _ = _eval({**LONG, "alpha0": 1e-6, "beta0": 5.0}, np.array([1.0]), np.array([1.5]), 0.0)
+    assert on.isub.v[0] > 0

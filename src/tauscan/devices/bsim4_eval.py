@@ -298,7 +298,8 @@ def _evaluate(p: Columns, vgs_p: Dual, vds_p: Dual, vbs_p: Dual, charges: bool) 
     tmp = p["alpha0"] + p["alpha1"] * leff
     on = (tmp > 0.0) & (p["beta0"] > 0.0)
     t2 = np.where(on, tmp / leff, 0.0)
-    hot = diff_vds.v > p["beta0"] / EXP_THRESHOLD
+    # (a device with BETA0 <= 0 has none: kept out of the exponential, which would overflow)
+    hot = on & (diff_vds.v > p["beta0"] / EXP_THRESHOLD)
     if np.any(on):
         factor = ad.where(hot, lambda: diff_vds * ad.exp(-p["beta0"] / ad.where(hot, diff_vds, 1.0)),
                           lambda: MIN_EXP * diff_vds)

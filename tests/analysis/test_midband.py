@@ -414,3 +414,13 @@ def test_narrow_band_is_warned_and_its_edges_are_exact(write):
     assert result.band.states == {"c1": "short"}
     assert any("not separated" in w for w in result.band.warnings)
     assert any("not separated" in w for w in result.warnings)
+
+
+def test_a_negative_capacitance_gets_the_corner_of_its_magnitude():
+    # a negative part of a charge-based device's split matrix (-2 fF seeing 10 kOhm) has its corner
+    # at 1/(2 pi R |C|) = 7.96 GHz: open at any lower f_mid, never shorted because its sign
+    # makes 1/(2 pi R C) negative
+    from tauscan.analysis.band import Reactive, corner_hz
+
+    part = Reactive("m1:cds", "c", -2e-15, "d", "s", "t.sp", 1)
+    assert corner_hz(part, 10e3) == pytest.approx(1 / (2 * math.pi * 10e3 * 2e-15), rel=1e-12)

@@ -388,12 +388,14 @@ def pinned_states(elements: list[Reactive], request: BandRequest) -> dict[str, s
 
 
 def corner_hz(e: Reactive, ohms: float) -> float:
-    """1/(2 pi R C) for a capacitor, R/(2 pi L) for an inductor (R taken as its magnitude)."""
+    """1/(2 pi R C) for a capacitor, R/(2 pi L) for an inductor (R and C taken as their
+    magnitudes: a negative part of a charge-based device's split matrix has a corner where its
+    magnitude puts it, not a negative one that would always read as below f_mid)."""
     r = abs(ohms)
     if e.kind == "c":
         if not math.isfinite(r):
             return 0.0
-        return math.inf if r == 0 else 1.0 / (2 * math.pi * r * e.value)
+        return math.inf if r == 0 else 1.0 / (2 * math.pi * r * abs(e.value))
     if not math.isfinite(r):
         return math.inf
     return r / (2 * math.pi * abs(e.value))

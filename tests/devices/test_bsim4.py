@@ -183,3 +183,16 @@ def test_no_substrate_current_when_beta0_is_not_positive():
     assert np.all(np.isfinite(ch.ids.d))
     on, _ = _eval({**LONG, "alpha0": 1e-6, "beta0": 5.0}, np.array([1.0]), np.array([1.5]), 0.0)
     assert on.isub.v[0] > 0
+
+
+def test_regions_from_weak_inversion_to_cutoff(write):
+    # weak inversion (an amplifying region, not a finding) below threshold; cut off ten thermal
+    # voltages below it; triode below VDSAT
+    card = " ".join(f"{k}={v:g}" for k, v in LONG.items())
+    regions = {}
+    for vg, vd in ((0.45, 1.0), (0.1, 1.0), (1.5, 0.05), (1.0, 1.5)):
+        op = operating_point(read_netlist(write(f"t\nvd d 0 {vd}\nvg g 0 {vg}\nm1 d g 0 0 nb w=10u l=10u\n"
+                                                f".model nb nmos {card}\n", f"r{vg}_{vd}.sp")))
+        regions[(vg, vd)] = op.device("m1").region
+    assert regions == {(0.45, 1.0): "subthreshold", (0.1, 1.0): "cutoff", (1.5, 0.05): "triode",
+                       (1.0, 1.5): "saturation"}

@@ -230,7 +230,8 @@ class Bsim4Group:
                     nodes[part + "_ext"], nodes[part + "_int"] = where[ta], where[tb]
                     series[part] = float(1.0 / self.gbody[part][i])
             dev = DeviceOP(
-                name=e.name, type=typ, model=self.models[i], region=_region(float((vgs[i] if f else vgs[i] - vds[i]) - ch.vth[i]), vds_e[i], ch.vdsat[i]),
+                name=e.name, type=typ, model=self.models[i], region=_region(float((vgs[i] if f else vgs[i] - vds[i]) - ch.vth[i]), vds_e[i], ch.vdsat[i],
+                               float(p["vtm"][i])),
                 current=float(t * (ch.ids.v[i] if f else -ch.ids.v[i])),
                 bias={"vgs": float(t * vgs[i]), "vds": float(t * vds[i]), "vbs": float(t * vbs[i]),
                       "vth": float(t * ch.vth[i]), "vov": float((vgs[i] if f else vgs[i] - vds[i]) - ch.vth[i]),
@@ -260,8 +261,17 @@ class Bsim4Group:
         return total * p["m"]
 
 
-def _region(vov: float, vds_e: float, vdsat: float) -> str:
-    """Below threshold (VGS - VTH < 0), else saturation when VDS reaches VDSAT, else triode."""
+#: below this overdrive, in thermal voltages, a device is reported cut off rather than in weak
+#: inversion: its current is e^(-10/n) (about 1e-3 to 1e-4) of the current at threshold (our own
+#: line between an amplifying weak-inversion device and an idle one)
+CUTOFF_VT = 10.0
+
+
+def _region(vov: float, vds_e: float, vdsat: float, vt: float) -> str:
+    """Cut off far below threshold, in weak inversion (``subthreshold``) below it, else
+    saturation when VDS reaches VDSAT, else triode."""
+    if vov < -CUTOFF_VT * vt:
+        return "cutoff"
     if vov < 0.0:
         return "subthreshold"
     return "saturation" if vds_e >= vdsat else "triode"
@@ -333,7 +343,7 @@ MODEL = register(DeviceModel(
     name="bsim4", letter="m", model_types=frozenset({"nmos", "pmos"}), levels=frozenset({54, 14}),
     terminals=("d", "g", "s", "b"),
     quantities=frozenset({"gm", "gds", "gmb", "id"}) | frozenset(CAPS_PLAIN), capacitances=frozenset(CAPS_PLAIN),
-    regions=("saturation", "triode", "subthreshold"), poor_regions=frozenset({"triode", "subthreshold"}),
+    regions=("saturation", "subthreshold", "triode", "cutoff"), poor_regions=frozenset({"triode", "cutoff"}),
     json_values=("gm", "gds", "gmb"), json_bias=("vov", "vgs", "vds", "vth", "vdsat", "margin"),
     json_caps=tuple(CAPS_PLAIN), table_bias=("vth", "vov", "vds", "vdsat", "margin"), output_conductance="gds",
     group=Bsim4Group, stamps=stamps,

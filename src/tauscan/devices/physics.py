@@ -237,6 +237,15 @@ def limit_fet(vgs: np.ndarray, vds: np.ndarray, old_gs: np.ndarray, old_ds: np.n
     """A MOSFET's Newton step limited (normalized frame): forward (old VDS >= 0) VGS by
     :func:`fetlim` then VDS by :func:`limvds`; reverse, VGD then -VDS.
 
+    Parameters
+    ----------
+    vgs, vds : ndarray
+        The new iterate's gate-source and drain-source voltages (V).
+    old_gs, old_ds : ndarray
+        The previous iterate's (V).
+    von : ndarray
+        The threshold voltage at the previous iterate (V).
+
     Returns
     -------
     vgs, vds : ndarray

@@ -112,10 +112,6 @@ def const(value, like: Dual) -> Dual:
     return Dual(v, np.zeros_like(like.d))
 
 
-def value(x) -> np.ndarray:
-    return x.v if isinstance(x, Dual) else np.asarray(x, float)
-
-
 def _unary(x: Dual, f: np.ndarray, df: np.ndarray) -> Dual:
     return Dual(f, x.d * df)
 
@@ -132,10 +128,6 @@ def exp(x: Dual) -> Dual:
 
 def log(x: Dual) -> Dual:
     return _unary(x, np.log(x.v), 1.0 / x.v)
-
-
-def atan(x: Dual) -> Dual:
-    return _unary(x, np.arctan(x.v), 1.0 / (1.0 + x.v * x.v))
 
 
 def where(cond: np.ndarray, a, b) -> Dual:
@@ -158,13 +150,3 @@ def where(cond: np.ndarray, a, b) -> Dual:
     a = a if isinstance(a, Dual) else const(a, like)
     b = b if isinstance(b, Dual) else const(b, like)
     return Dual(np.where(cond, a.v, b.v), np.where(cond, a.d, b.d))
-
-
-def minimum(a: Dual, b) -> Dual:
-    bv = value(b)
-    return where(a.v <= bv, a, b)
-
-
-def maximum(a: Dual, b) -> Dual:
-    bv = value(b)
-    return where(a.v >= bv, a, b)

@@ -104,6 +104,35 @@ class DeviceOP:
         return registry.by_name(self.family).stamps(self)
 
 
+def mos_terminal_voltages(v: np.ndarray, t: np.ndarray, vgs: np.ndarray, vds: np.ndarray, vbs: np.ndarray,
+                          width: int = 4) -> np.ndarray:
+    """The terminal voltages a MOSFET's (limited) normalized biases stand for, in the columns
+    d, g, s, b of an array ``width`` wide (the source's node voltage kept; more columns are
+    the caller's to fill).
+
+    Parameters
+    ----------
+    v : ndarray, shape (n, k)
+        Node voltages at the devices' terminals, columns d, g, s, b first.
+    t : ndarray, shape (n,)
+        +1 for NMOS, -1 for PMOS.
+    vgs, vds, vbs : ndarray, shape (n,)
+        Normalized biases (V).
+    width : int
+        Columns of the result.
+
+    Returns
+    -------
+    ndarray, shape (n, width)
+    """
+    used = np.empty((len(t), width))
+    used[:, 2] = v[:, 2]
+    used[:, 1] = v[:, 2] + t * vgs
+    used[:, 0] = v[:, 2] + t * vds
+    used[:, 3] = v[:, 2] + t * vbs
+    return used
+
+
 def series_stamps(params: dict, ext, nodes, parts: tuple[tuple[str, int], ...]):
     """Conductances of series resistances between external and internal terminals.
 

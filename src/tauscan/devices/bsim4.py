@@ -18,7 +18,7 @@ import numpy as np
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import bsim4_eval, physics
 from tauscan.devices import stamps as stamp_helpers
-from tauscan.devices.base import DeviceOP, SmallSignal
+from tauscan.devices.base import DeviceOP, SmallSignal, mos_terminal_voltages
 from tauscan.devices.bsim4_card import EXP_THRESHOLD, MIN_EXP, device_columns
 from tauscan.devices.dual import Dual
 from tauscan.devices.registry import DeviceModel, register
@@ -127,11 +127,7 @@ class Bsim4Group:
             jac[:, c_term, j_term] -= g
             jac[:, c_term, c_term] += g
         v = x[self.nodes]
-        used = np.empty((n, 6))
-        used[:, S] = v[:, S]
-        used[:, G] = v[:, S] + t * vgs
-        used[:, D] = v[:, S] + t * vds
-        used[:, B] = v[:, S] + t * vbs
+        used = mos_terminal_voltages(v, t, vgs, vds, vbs, 6)
         used[:, SB] = v[:, S] + t * vbs_j
         used[:, DB] = used[:, D] + t * vbd_j
         new_state = {"vgs": vgs, "vds": vds, "vbs": vbs, "vbs_j": vbs_j, "vbd_j": vbd_j, "vth": ch.vth}

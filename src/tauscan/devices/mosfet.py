@@ -17,7 +17,7 @@ import numpy as np
 
 from tauscan.circuit import Circuit, Element
 from tauscan.devices import cards, physics
-from tauscan.devices.base import DeviceOP, SmallSignal, series_stamps
+from tauscan.devices.base import DeviceOP, SmallSignal, mos_terminal_voltages, series_stamps
 from tauscan.devices import stamps as stamp_helpers
 from tauscan.devices.registry import DeviceModel, register
 from tauscan.errors import CircuitError
@@ -166,12 +166,7 @@ class MosGroup:
         jac[:, D, B] -= gbd
         jac[:, S, S] += gbs
         jac[:, S, B] -= gbs
-        v = x[self.nodes]
-        used = np.empty((n, 4))
-        used[:, S] = v[:, S]
-        used[:, G] = v[:, S] + t * vgs
-        used[:, D] = v[:, S] + t * vds
-        used[:, B] = v[:, S] + t * vbs
+        used = mos_terminal_voltages(x[self.nodes], t, vgs, vds, vbs)
         return cur, jac, used, {"vgs": vgs, "vds": vds, "vbs": vbs}, bool(changed.any())
 
     def _limit(self, vgs, vds, vbs, state):

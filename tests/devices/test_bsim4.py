@@ -196,3 +196,15 @@ def test_regions_from_weak_inversion_to_cutoff(write):
         regions[(vg, vd)] = op.device("m1").region
     assert regions == {(0.45, 1.0): "subthreshold", (0.1, 1.0): "cutoff", (1.5, 0.05): "triode",
                        (1.0, 1.5): "saturation"}
+
+
+@pytest.mark.parametrize("extra,message", [("mulu0=1.2", "MULU0=1.2 has an effect tauscan does not evaluate"),
+                                           ("foo=3", "FOO is not a BSIM4 instance parameter")])
+def test_instance_parameters_not_evaluated_are_located_errors(write, extra, message):
+    card = " ".join(f"{k}={v:g}" for k, v in LONG.items())
+    path = write(f"t\nvd d 0 1\nvg g 0 1\nm1 d g 0 0 nb w=1u l=1u {extra}\n.model nb nmos {card}\n")
+    with pytest.raises(CircuitError, match=":4:.*" + message):
+        operating_point(read_netlist(path))
+    # left at the value without effect, MULU0 reads
+    ok = write(f"t\nvd d 0 1\nvg g 0 1\nm1 d g 0 0 nb w=1u l=1u mulu0=1 off\n.model nb nmos {card}\n", "ok.sp")
+    assert operating_point(read_netlist(ok)).device("m1").current > 0

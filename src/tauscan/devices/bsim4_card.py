@@ -107,6 +107,31 @@ INSTANCE = {"w": 5e-6, "l": 5e-6, "nf": 1.0, "m": 1.0, "delvto": 0.0, "sa": 0.0,
             "nrd": 0.0, "nrs": 0.0}
 #: instance values that fall back to the card's (per device)
 INSTANCE_FROM_CARD = ("rbpb", "rbpd", "rbps", "rbdb", "rbsb")
+#: every other instance parameter a BSIM4 line may carry: those read (areas and perimeters; OFF,
+#: a starting guess for the DC solution that the solution itself does not depend on), and
+#: those whose effect is not evaluated, with the value that leaves them without effect
+INSTANCE_READ = ("ad", "as", "pd", "ps", "off")
+INSTANCE_INERT = {"mulu0": 1.0, "sca": 0.0, "scb": 0.0, "scc": 0.0, "sc": 0.0, "min": 0.0, "xgw": 0.0, "ngcon": 1.0}
+
+
+def _check_instances(elements: list[Element]) -> None:
+    """Every instance parameter is one BSIM4 reads, or one left at the value without effect;
+    anything else is a located error (never silently dropped)."""
+    known = set(INSTANCE) | set(INSTANCE_FROM_CARD) | set(INSTANCE_READ)
+    seen: set[int] = set()
+    for e in elements:
+        if id(e.params) in seen:  # (lines that read the same share one dictionary)
+            continue
+        seen.add(id(e.params))
+        for key, value in e.params.items():
+            if key in known:
+                continue
+            inert = INSTANCE_INERT.get(key)
+            if inert is None:
+                raise CircuitError(f"{e.name}: {key.upper()} is not a BSIM4 instance parameter tauscan reads", e.file, e.line)
+            if value != inert:
+                raise CircuitError(f"{e.name}: {key.upper()}={value:g} has an effect tauscan does not evaluate for BSIM4 "
+                                   f"(only {key.upper()}={inert:g}); supply the operating point with --op", e.file, e.line)
 
 
 def _where(model: Model) -> str:
@@ -204,6 +229,7 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     def col(key: str, default: float = 0.0) -> np.ndarray:
         return np.fromiter((p.get(key, default) for p in per), dtype=float, count=n)
 
+    _check_instances(elements)
     c = Columns()
     c["type"] = np.array([1.0 if card.type == "nmos" else -1.0 for card in cards])
     inst = {k: np.fromiter((e.params.get(k, v) for e in elements), dtype=float, count=n) for k, v in INSTANCE.items()}

@@ -506,11 +506,14 @@ def _nodes(ss, a_rows, b_rows, table, excess, sum_tau, threshold, tt: TransferTa
            trans: TransParts) -> list[NodeResult]:
     n = ss.n_nodes
     node_tau, miller = tc.node_sums([], a_rows, b_rows, table, n, excess)
-    touched = np.union1d(a_rows[a_rows >= 0], b_rows[b_rows >= 0]).astype(np.int64)
-    for rows, part in zip(trans.rows, trans.node_parts):
+    touched = [a_rows[a_rows >= 0], b_rows[b_rows >= 0]]
+    if len(trans.rows):  # the ctrans parts, one block per device, added in one go
+        rows = np.concatenate([np.asarray(r, dtype=np.int64) for r in trans.rows])
+        part = np.concatenate([np.asarray(q, dtype=float) for q in trans.node_parts])
         ok = (rows >= 0) & (rows < n)
         np.add.at(node_tau, rows[ok], part[ok])
-        touched = np.union1d(touched, rows[ok]).astype(np.int64)
+        touched.append(rows[ok])
+    touched = np.unique(np.concatenate(touched)).astype(np.int64)
     names = ss.network.nodes
     taus = node_tau[touched]
     mts = miller[touched]

@@ -217,17 +217,20 @@ def device_columns(elements: list[Element], cards: list[Model], temp_c: float) -
     ``cards[i]`` is the model card of ``elements[i]`` (already binned by L and W/nf).
     """
     n = len(elements)
-    filled: dict[int, dict] = {}
-    per = []
-    for card in cards:
-        key = id(card)
-        if key not in filled:
+    slot: dict[int, int] = {}
+    distinct: list[dict] = []
+    which = np.empty(n, dtype=np.int64)
+    for i, card in enumerate(cards):
+        k = slot.get(id(card))
+        if k is None:
             check_card(card)
-            filled[key] = _derived_defaults(card)
-        per.append(filled[key])
+            k = slot[id(card)] = len(distinct)
+            distinct.append(_derived_defaults(card))
+        which[i] = k
 
     def col(key: str, default: float = 0.0) -> np.ndarray:
-        return np.fromiter((p.get(key, default) for p in per), dtype=float, count=n)
+        """A card parameter per device: read once per distinct card, then spread."""
+        return np.array([p.get(key, default) for p in distinct], dtype=float)[which]
 
     _check_instances(elements)
     c = Columns()

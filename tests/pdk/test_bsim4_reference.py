@@ -158,3 +158,39 @@ def test_own_card_with_pocket_terms_matches_the_reference_simulator(tmp_path):
         assert dev.current == pytest.approx(ref[f"@m{k}[id]"], rel=1e-3), bias
         assert dev.values["gm"] == pytest.approx(ref[f"@m{k}[gm]"], rel=1e-3), bias
         assert dev.values["gds"] == pytest.approx(ref[f"@m{k}[gds]"], rel=1e-3), bias
+
+
+def test_own_card_terminal_matrix_without_body_network(tmp_path):
+    # the same card of our own (no body network: junction capacitances go to the body terminal
+    # itself) with areas and perimeters, its 4 x 4 matrix against the simulator's AC currents
+    card = POCKET + " cjs=1e-3 cjsws=2e-10 cjswgs=3e-10 mjs=0.4 pbs=0.8"
+    lines = ["* own card, terminal matrix (our own)", card]
+    biases = [(0.3, 0.6, 0.0), (1.0, 0.05, -0.4), (1.2, 1.0, 0.0)]
+    for k, (vg, vd, vb) in enumerate(biases):
+        for t in TERMINALS:
+            dc = {"d": vd, "g": vg, "s": 0.0, "b": vb}
+            for x in TERMINALS:
+                lines.append(f"v{x}{k}_{t} {x}{k}_{t} 0 dc {dc[x]:g}" + (" ac 1" if x == t else ""))
+            lines.append(f"m{k}_{t} d{k}_{t} g{k}_{t} s{k}_{t} b{k}_{t} pocket w=2u l=0.2u "
+                         "ad=0.5p as=0.5p pd=3u ps=3u")
+    text = "\n".join(lines) + "\n"
+    control = [f"ac lin 1 {FREQ:g} {FREQ:g}"]
+    for k in range(len(biases)):
+        for t in TERMINALS:
+            for x in TERMINALS:
+                control.append(f"let q{k}_{t}{x} = imag(i(v{x}{k}_{t}))")
+        control.append("print " + " ".join(f"q{k}_{t}{x}" for t in TERMINALS for x in TERMINALS))
+    ref = ngspice.run_control(text, control)
+    path = tmp_path / "own.sp"
+    path.write_text(text + ".end\n")
+    op = operating_point(read_netlist(str(path)))
+    omega = 2.0 * math.pi * FREQ
+    for k, bias in enumerate(biases):
+        dev = op.device(f"m{k}_d")
+        assert dev.cmatrix[0] == ("d_phys", "g", "s_phys", "b")  # no internal body nodes
+        theirs = np.array([[-ref.get(f"ac1.q{k}_{t}{x}", ref.get(f"q{k}_{t}{x}", math.nan)) / omega
+                            for t in TERMINALS] for x in TERMINALS])
+        mine = _folded(dev)
+        err = float(np.abs(mine - theirs).max() / np.abs(theirs).max())
+        print(f"own card at vgs/vds/vbs={bias}: terminal matrix within {err:.2e} of the largest entry")
+        assert err < 0.01, (bias, np.array2string(mine * 1e15, precision=4), np.array2string(theirs * 1e15, precision=4))

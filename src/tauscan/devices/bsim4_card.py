@@ -170,6 +170,7 @@ def _derived_defaults(model: Model) -> dict[str, float]:
     """The card's parameters with the manual's derived defaults filled in."""
     given = model.params
     out = {k: v for k, v in DEFAULTS.items() if v is not None}
+    out.update({flag: default for flag, (_allowed, default, _what) in FLAGS.items()})
     out.update({k: float(v) for k, v in given.items() if isinstance(v, (int, float))})
     nmos = model.type == "nmos"
     out.setdefault("vth0", 0.7 if nmos else -0.7)

@@ -68,7 +68,7 @@ DEFAULTS: dict[str, float | None] = {
     "kt1": -0.11, "kt1l": 0.0, "kt2": 0.022, "dvt0w": 0.0, "dvt1w": 5.3e6, "dvt2w": -0.032, "dvt0": 2.2,
     "dvt1": 0.53, "dvt2": -0.032, "vth0": None, "eta0": 0.08, "etab": -0.07, "drout": 0.56, "dsub": None,
     "voff": -0.08, "voffl": 0.0, "minv": 0.0, "lpe0": 1.74e-7, "lpeb": 0.0, "u0": None, "ua": 1e-9,
-    "ub": 1e-19, "uc": -0.0465e-9, "ud": 0.0, "ute": -1.5, "ua1": 1e-9, "ub1": -1e-18, "uc1": -0.056e-9,
+    "ub": 1e-19, "uc": -0.0465e-9, "ud": 1e14, "ute": -1.5, "ua1": 1e-9, "ub1": -1e-18, "uc1": -0.056e-9,
     "prt": 0.0, "rdsw": 200.0, "rdswmin": 0.0, "prwg": 1.0, "prwb": 0.0, "wr": 1.0, "delta": 0.01,
     "pclm": 1.3, "pdiblc1": 0.39, "pdiblc2": 0.0086, "pdiblcb": 0.0, "pvag": 0.0, "pscbe1": 4.24e8,
     "pscbe2": 1e-5, "fprout": 0.0, "pdits": 0.0, "pditsd": 0.0, "pditsl": 0.0, "alpha0": 0.0, "alpha1": 0.0,

@@ -4,7 +4,8 @@ implementation of the published BSIM4 equations), point by point.
 One netlist per (device type, corner, temperature) holds every geometry and bias of the grid,
 four copies of each biased device: copy j drives terminal j with a 1 V AC source, so the
 terminal currents of an AC analysis at 1 MHz give column j of the terminal capacitance matrix
-(C_ij = Im(I_i) / omega).  The same netlist, without its control block, is what tauscan reads.
+(C_ij = Im(I_i) / omega); tauscan's side is the same quantity of its linearized device, internal
+nodes eliminated.  The same netlist, without its control block, is what tauscan reads.
 Bias points, geometries and the netlist are our own; the cards are the library's.
 """
 
@@ -70,16 +71,39 @@ def _reference(text: str, kind: str, points: list) -> dict[str, float]:
     return ngspice.run_control(text, control)
 
 
-def _folded(dev) -> np.ndarray:
-    """tauscan's terminal matrix over the external d, g, s, b (the body network's internal nodes
-    folded into b: at 1 MHz its 50-ohm resistors are shorts against femtofarads)."""
-    order, cm = dev.cmatrix
-    place = {"d_phys": 0, "g": 1, "s_phys": 2, "b": 3, "db": 3, "sb": 3}
-    out = np.zeros((4, 4))
-    for i, a in enumerate(order):
-        for j, b in enumerate(order):
-            out[place[a], place[b]] += cm[i, j]
-    return out
+def _terminal_matrix(dev, omega: float) -> np.ndarray:
+    """What the simulator's AC analysis measures of tauscan's device: its small-signal network
+    (conductances, transconductances, the terminal capacitance matrix, the body network's
+    resistors) as an admittance G + j omega C, the internal nodes eliminated (a Schur
+    complement), then C_ij = Im(Y_ij) / omega over the external d, g, s, b."""
+    ss = dev.small_signal()
+    ext = [dev.nodes[k] for k in ("d_phys", "g", "s_phys")] + [dev.nodes.get("rbpb_ext", dev.nodes["b"])]
+    names = list(ext)
+    for _part, a, b, _g in ss.conductances:
+        names += [a, b]
+    for _part, p, n, cp, cn, _g in ss.vccs:
+        names += [p, n, cp, cn]
+    names += list(ss.capacitance.nodes)
+    index = {name: i for i, name in enumerate(dict.fromkeys(names))}
+    y = np.zeros((len(index), len(index)), dtype=complex)
+    for _part, a, b, g in ss.conductances:
+        i, j = index[a], index[b]
+        y[i, i] += g
+        y[j, j] += g
+        y[i, j] -= g
+        y[j, i] -= g
+    for _part, p, n, cp, cn, g in ss.vccs:
+        for row, sign in ((index[p], 1.0), (index[n], -1.0)):
+            y[row, index[cp]] += sign * g
+            y[row, index[cn]] -= sign * g
+    rows = [index[x] for x in ss.capacitance.nodes]
+    y[np.ix_(rows, rows)] += 1j * omega * ss.capacitance.matrix
+    e = [index[x] for x in ext]
+    i = [k for k in range(len(index)) if k not in e]
+    y_ext = y[np.ix_(e, e)]
+    if i:
+        y_ext = y_ext - y[np.ix_(e, i)] @ np.linalg.solve(y[np.ix_(i, i)], y[np.ix_(i, e)])
+    return y_ext.imag / omega
 
 
 @pytest.mark.parametrize("kind", ["nfet", "pfet"])
@@ -116,7 +140,7 @@ def test_devices_match_the_reference_simulator(tmp_path, sky130_lib, kind, corne
                 if err > worst["leak"][0]:
                     worst["leak"] = (err, f"{q} {where}")
         theirs_c = np.array([[-ref.get(f"ac1.q{k}_{t}{x}", ref.get(f"q{k}_{t}{x}", math.nan)) / omega for t in TERMINALS] for x in TERMINALS])
-        mine = _folded(op.device(f"xm{k}_d"))
+        mine = _terminal_matrix(op.device(f"xm{k}_d"), omega)
         err = float(np.abs(mine - theirs_c).max() / np.abs(theirs_c).max())
         if err > worst["C"][0]:
             worst["C"] = (err, where)
@@ -189,7 +213,7 @@ def test_own_card_terminal_matrix_without_body_network(tmp_path):
         assert dev.cmatrix[0] == ("d_phys", "g", "s_phys", "b")  # no internal body nodes
         theirs = np.array([[-ref.get(f"ac1.q{k}_{t}{x}", ref.get(f"q{k}_{t}{x}", math.nan)) / omega
                             for t in TERMINALS] for x in TERMINALS])
-        mine = _folded(dev)
+        mine = _terminal_matrix(dev, omega)
         err = float(np.abs(mine - theirs).max() / np.abs(theirs).max())
         print(f"own card at vgs/vds/vbs={bias}: terminal matrix within {err:.2e} of the largest entry")
         assert err < 0.01, (bias, np.array2string(mine * 1e15, precision=4), np.array2string(theirs * 1e15, precision=4))

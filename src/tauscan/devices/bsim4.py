@@ -318,9 +318,7 @@ def stamps(dev: DeviceOP) -> SmallSignal:
     out = SmallSignal()
     n, v = dev.nodes, dev.values
     d, g, s, b = n["d"], n["g"], n["s"], n["b"]
-    out.vccs.append(("gm", d, s, g, s, v.get("gm", 0.0)))
-    out.vccs.append(("gmb", d, s, b, s, v.get("gmb", 0.0)))
-    out.conductances.append(("gds", d, s, v.get("gds", 0.0)))
+    stamp_helpers.mos_channel(dev, out)
     for part, control in (("gsub_g", g), ("gsub_d", d), ("gsub_b", b)):
         out.vccs.append((part, d, b, control, s, v.get(part, 0.0)))
     dp, sp = n["d_phys"], n["s_phys"]

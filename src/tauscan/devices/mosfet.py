@@ -299,10 +299,8 @@ def stamps(dev: DeviceOP) -> SmallSignal:
     conductances, the capacitances and the series resistances."""
     out = SmallSignal()
     n, v = dev.nodes, dev.values
-    d, g, s, b = n["d"], n["g"], n["s"], n["b"]
-    out.vccs.append(("gm", d, s, g, s, v.get("gm", 0.0)))
-    out.vccs.append(("gmb", d, s, b, s, v.get("gmb", 0.0)))
-    out.conductances.append(("gds", d, s, v.get("gds", 0.0)))
+    b = n["b"]
+    stamp_helpers.mos_channel(dev, out)
     out.conductances.append(("gbd", b, n["d_phys"], v.get("gbd", 0.0)))
     out.conductances.append(("gbs", b, n["s_phys"], v.get("gbs", 0.0)))
     stamp_helpers.capacitors(dev, out, CAP_TERMINALS)

@@ -9,6 +9,25 @@ import numpy as np
 from tauscan.devices.base import CapacitanceMatrix, DeviceOP, SmallSignal
 
 
+def mos_channel(dev: DeviceOP, out: SmallSignal) -> None:
+    """A MOSFET's channel: gm (controlled by g - s) and gmb (by b - s) from the effective drain
+    to the effective source, and gds between them.
+
+    Parameters
+    ----------
+    dev : DeviceOP
+        ``nodes`` holds ``d``, ``g``, ``s``, ``b`` (the effective drain and source); ``values``
+        ``gm``, ``gmb``, ``gds`` (siemens; a missing one is zero).
+    out : SmallSignal
+        Receives the two transconductances and the conductance.
+    """
+    n, v = dev.nodes, dev.values
+    d, g, s, b = n["d"], n["g"], n["s"], n["b"]
+    out.vccs.append(("gm", d, s, g, s, v.get("gm", 0.0)))
+    out.vccs.append(("gmb", d, s, b, s, v.get("gmb", 0.0)))
+    out.conductances.append(("gds", d, s, v.get("gds", 0.0)))
+
+
 def capacitors(dev: DeviceOP, out: SmallSignal, terminals: dict[str, tuple[str, str]]) -> None:
     """Set ``out.capacitance``: the device's terminal capacitance matrix.
 

@@ -11,7 +11,6 @@ every one of them explicitly.
 from __future__ import annotations
 
 import math
-import os
 
 import numpy as np
 
@@ -132,10 +131,6 @@ def _check_instances(elements: list[Element]) -> None:
             if value != inert:
                 raise CircuitError(f"{e.name}: {key.upper()}={value:g} has an effect tauscan does not evaluate for BSIM4 "
                                    f"(only {key.upper()}={inert:g}); supply the operating point with --op", e.file, e.line)
-
-
-def _where(model: Model) -> str:
-    return f"{os.path.basename(model.file)}:{model.line}" if model.file else ""
 
 
 def check_card(model: Model) -> None:
@@ -491,8 +486,3 @@ def _half_csch2(x: np.ndarray) -> np.ndarray:
     small = x < EXP_THRESHOLD
     e = np.exp(np.minimum(x, EXP_THRESHOLD))
     return np.where(small, e / ((e - 1.0) ** 2 + 2.0 * e * MIN_EXP), 1.0 / (MAX_EXP - 2.0))
-
-
-def warn_text(model: Model) -> str:
-    where = _where(model)
-    return f"model {model.card_name}{' (' + where + ')' if where else ''}"
